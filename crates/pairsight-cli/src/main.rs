@@ -1,0 +1,5 @@
+//! The `pairsight` command line.
+
+fn main() {
+    println!("pairsight {}", pairsight_core::VERSION);
+}

@@ -1,0 +1,5 @@
+//! Project tasks.
+
+fn main() {
+    println!("xtask");
+}
