@@ -1,5 +1,36 @@
-//! The `pairsight` command line.
+//! `pairsight`: the command line over pairsight-core. Each subcommand lives in
+//! its own module and is mostly argument handling; exit code 2 means bad input.
 
-fn main() {
-    println!("pairsight {}", pairsight_core::VERSION);
+use clap::{Parser, Subcommand};
+use std::process::ExitCode;
+
+mod demo;
+
+/// pairsight: match treated and comparison patients on structured and
+/// note-derived covariates, check balance, estimate the effect. Runs offline.
+#[derive(Parser)]
+#[command(name = "pairsight", version, about)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Write the invented demo cohort, its study file and its known truth.
+    Demo(demo::DemoArgs),
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Command::Demo(args) => demo::run(&args),
+    };
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(message) => {
+            eprintln!("pairsight: {message}");
+            ExitCode::from(2)
+        }
+    }
 }
