@@ -25,6 +25,7 @@ pub mod ingest;
 pub mod matching;
 pub mod model;
 pub mod notes;
+pub mod output;
 pub mod review;
 pub mod rng;
 pub mod run;
