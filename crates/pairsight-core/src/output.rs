@@ -97,7 +97,8 @@ mod tests {
         assert_eq!(num(123456789012.7), "123456789013");
         assert_eq!(num(1e-300), "1e-300");
         assert_eq!(num(-1.25e-20), "-1.25e-20");
-        assert_eq!(num(2.5e-7), "0.00000025");
+        assert_eq!(num(2.5e-7), "2.5e-7");
+        assert_eq!(num(2.5e-6), "0.0000025");
         assert_eq!(num(f64::NAN), "NA");
         assert_eq!(num(-0.0), "0");
         assert_eq!(opt(None), "NA");
