@@ -1,0 +1,279 @@
+//! Latent dimensions: a truncated singular value decomposition of the TF-IDF
+//! matrix (latent semantic analysis, Deerwester, Dumais, Furnas, Landauer &
+//! Harshman 1990, JASIS 41(6):391-407), computed by randomized subspace
+//! iteration (Halko, Martinsson & Tropp 2011, "Finding structure with
+//! randomness", SIAM Review 53(2):217-288, Algorithm 4.4 with the final steps
+//! of Algorithm 5.1). Small dense QR and SVD steps use nalgebra.
+
+use nalgebra::DMatrix;
+use ndarray::Array2;
+
+use super::tfidf::SparseRows;
+use crate::rng::Rng;
+use crate::{Error, Result};
+
+/// Extra random directions beyond the k wanted (Halko et al. 2011, section
+/// 4.2, suggest p = 5 or 10).
+pub const OVERSAMPLE: usize = 10;
+/// Power iterations q (Halko et al. 2011, section 4.5): each applies A and
+/// its transpose once more, sharpening the decay of the spectrum.
+pub const POWER_ITERATIONS: usize = 5;
+
+/// The latent step's result.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Latent {
+    /// Scores of each row on each dimension, U times Sigma (rows x k), the
+    /// same quantity as projecting each TF-IDF row on the right singular
+    /// vectors.
+    pub scores: Array2<f64>,
+    /// Singular values, largest first.
+    pub singular_values: Vec<f64>,
+}
+
+/// y = A z, with z (cols x l) and y (rows x l) dense row-major.
+fn mul(a: &SparseRows, z: &[f64], l: usize, y: &mut [f64]) {
+    for (i, yi) in y.chunks_exact_mut(l).enumerate() {
+        yi.fill(0.0);
+        let (c, v) = a.row(i);
+        for (&j, &x) in c.iter().zip(v) {
+            let zj = &z[j as usize * l..j as usize * l + l];
+            for (t, &s) in yi.iter_mut().zip(zj) {
+                *t += x * s;
+            }
+        }
+    }
+}
+
+/// z = A' y, with y (rows x l) and z (cols x l) dense row-major.
+fn mul_t(a: &SparseRows, y: &[f64], l: usize, z: &mut [f64]) {
+    z.fill(0.0);
+    for (i, yi) in y.chunks_exact(l).enumerate() {
+        let (c, v) = a.row(i);
+        for (&j, &x) in c.iter().zip(v) {
+            let zj = &mut z[j as usize * l..j as usize * l + l];
+            for (t, &s) in zj.iter_mut().zip(yi) {
+                *t += x * s;
+            }
+        }
+    }
+}
+
+/// Orthonormal basis of the columns of a row-major r x l buffer, in place.
+fn orthonormalize(buf: &mut [f64], r: usize, l: usize) {
+    let q = DMatrix::from_row_slice(r, l, buf).qr().q();
+    for i in 0..r {
+        for j in 0..l {
+            buf[i * l + j] = q[(i, j)];
+        }
+    }
+}
+
+/// Singular values and right singular vectors (as columns, l x l) of a tall
+/// row-major r x l buffer, through its QR factor R (so only an l x l SVD is
+/// needed).
+fn small_svd(buf: &[f64], r: usize, l: usize) -> Result<(Vec<f64>, DMatrix<f64>, DMatrix<f64>)> {
+    let rr = DMatrix::from_row_slice(r, l, buf).qr().r();
+    let svd = rr.try_svd(true, true, f64::EPSILON, 0).ok_or_else(|| {
+        Error::compute("the latent step's SVD did not converge; try fewer latent dimensions")
+    })?;
+    let (Some(u), Some(vt)) = (svd.u, svd.v_t) else {
+        return Err(Error::compute("the latent step's SVD gave no vectors"));
+    };
+    // nalgebra returns singular values unsorted from try_svd; sort largest first.
+    let mut order: Vec<usize> = (0..svd.singular_values.len()).collect();
+    order.sort_by(|&a, &b| {
+        svd.singular_values[b]
+            .total_cmp(&svd.singular_values[a])
+            .then(a.cmp(&b))
+    });
+    let s: Vec<f64> = order.iter().map(|&k| svd.singular_values[k]).collect();
+    let u = DMatrix::from_fn(u.nrows(), order.len(), |i, j| u[(i, order[j])]);
+    let v = DMatrix::from_fn(vt.ncols(), order.len(), |i, j| vt[(order[j], i)]);
+    Ok((s, u, v))
+}
+
+/// Truncated SVD of `a` to `k` dimensions (fewer when the matrix has fewer
+/// rows or columns). Deterministic for a given seed.
+///
+/// A row without terms scores 0 on every dimension.
+///
+/// Sign convention: singular vectors have arbitrary signs, so each latent
+/// column is flipped to make its entry of largest absolute value positive
+/// (the first such row on ties).
+pub fn truncated_svd(a: &SparseRows, k: usize, seed: u64) -> Result<Latent> {
+    let (n, m) = (a.n_rows(), a.n_cols);
+    let k = k.min(n).min(m);
+    if k == 0 || a.values.iter().all(|&x| x == 0.0) {
+        return Ok(Latent {
+            scores: Array2::zeros((n, k)),
+            singular_values: vec![0.0; k],
+        });
+    }
+    let small = n.min(m);
+    let l = (k + OVERSAMPLE).min(small);
+    let mut rng = Rng::new(seed);
+    let mut scores = Array2::<f64>::zeros((n, k));
+    let sv: Vec<f64>;
+    if m <= n {
+        // Iterate on the column side: Q spans the top right singular vectors.
+        let mut q: Vec<f64> = (0..m * l).map(|_| rng.normal()).collect();
+        let mut y = vec![0.0; n * l];
+        for _ in 0..=POWER_ITERATIONS {
+            mul(a, &q, l, &mut y);
+            mul_t(a, &y, l, &mut q);
+            orthonormalize(&mut q, m, l);
+        }
+        mul(a, &q, l, &mut y);
+        // A Q = Qy R and R = U S W', so U S = A Q W.
+        let (s, _u, w) = small_svd(&y, n, l)?;
+        for i in 0..n {
+            for c in 0..k {
+                let mut t = 0.0;
+                for j in 0..l {
+                    t += y[i * l + j] * w[(j, c)];
+                }
+                scores[[i, c]] = t;
+            }
+        }
+        sv = s;
+    } else {
+        // Iterate on the row side: Q spans the top left singular vectors.
+        let mut q: Vec<f64> = (0..n * l).map(|_| rng.normal()).collect();
+        let mut z = vec![0.0; m * l];
+        for _ in 0..=POWER_ITERATIONS {
+            mul_t(a, &q, l, &mut z);
+            mul(a, &z, l, &mut q);
+            orthonormalize(&mut q, n, l);
+        }
+        mul_t(a, &q, l, &mut z);
+        // A' Q = Qz R and R = U S W', so A ~ Q (A' Q)' = (Q W) S (Qz U)'.
+        let (s, _u, w) = small_svd(&z, m, l)?;
+        for i in 0..n {
+            for c in 0..k {
+                let mut t = 0.0;
+                for j in 0..l {
+                    t += q[i * l + j] * w[(j, c)];
+                }
+                scores[[i, c]] = t * s[c];
+            }
+        }
+        sv = s;
+    }
+    // U S and A V agree in exact arithmetic; make a note without terms score
+    // exactly 0 rather than rounding noise.
+    for i in 0..n {
+        if a.row(i).0.is_empty() {
+            scores.row_mut(i).fill(0.0);
+        }
+    }
+    for c in 0..k {
+        let mut best = 0usize;
+        for i in 1..n {
+            if scores[[i, c]].abs() > scores[[best, c]].abs() {
+                best = i;
+            }
+        }
+        if scores[[best, c]] < 0.0 {
+            scores.column_mut(c).mapv_inplace(|x| -x);
+        }
+    }
+    if scores.iter().any(|x| !x.is_finite()) || sv.iter().any(|x| !x.is_finite()) {
+        return Err(Error::compute(
+            "the latent step produced non-finite values; try fewer latent dimensions",
+        ));
+    }
+    Ok(Latent {
+        scores,
+        singular_values: sv[..k].to_vec(),
+    })
+}
+
+/// 1 minus the cosine similarity of latent rows `i` and `j`; 1 when either
+/// row is zero or out of range. Clamped to [0, 2] against rounding.
+pub fn latent_cosine_distance(latent: &Array2<f64>, i: usize, j: usize) -> f64 {
+    if i >= latent.nrows() || j >= latent.nrows() {
+        return 1.0;
+    }
+    let (a, b) = (latent.row(i), latent.row(j));
+    let (na, nb) = (a.dot(&a).sqrt(), b.dot(&b).sqrt());
+    if na == 0.0 || nb == 0.0 {
+        return 1.0;
+    }
+    (1.0 - a.dot(&b) / (na * nb)).clamp(0.0, 2.0)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn dense_to_sparse(rows: &[Vec<f64>]) -> SparseRows {
+        let mut s = SparseRows {
+            n_cols: rows[0].len(),
+            indptr: vec![0],
+            indices: vec![],
+            values: vec![],
+        };
+        for r in rows {
+            for (j, &x) in r.iter().enumerate() {
+                if x != 0.0 {
+                    s.indices.push(j as u32);
+                    s.values.push(x);
+                }
+            }
+            s.indptr.push(s.indices.len());
+        }
+        s
+    }
+
+    fn exact_singular_values(rows: &[Vec<f64>]) -> Vec<f64> {
+        let m = DMatrix::from_fn(rows.len(), rows[0].len(), |i, j| rows[i][j]);
+        let mut s: Vec<f64> = m.singular_values().iter().copied().collect();
+        s.sort_by(|a, b| b.total_cmp(a));
+        s
+    }
+
+    #[test]
+    fn matches_exact_svd_on_both_sides() {
+        let mut rng = Rng::new(11);
+        for (n, m) in [(40, 15), (15, 40), (30, 30)] {
+            let rows: Vec<Vec<f64>> = (0..n)
+                .map(|_| {
+                    (0..m)
+                        .map(|_| {
+                            if rng.uniform() < 0.3 {
+                                rng.uniform()
+                            } else {
+                                0.0
+                            }
+                        })
+                        .collect()
+                })
+                .collect();
+            let a = dense_to_sparse(&rows);
+            let lat = truncated_svd(&a, 4, 3).unwrap();
+            let exact = exact_singular_values(&rows);
+            for (x, e) in lat.singular_values.iter().zip(&exact) {
+                assert!((x - e).abs() <= 1e-6 * e, "{n}x{m}: {x} vs {e}");
+            }
+            // Scores are U S: their column norms are the singular values.
+            for c in 0..4 {
+                let norm = lat.scores.column(c).dot(&lat.scores.column(c)).sqrt();
+                assert!((norm - lat.singular_values[c]).abs() < 1e-8 * norm);
+            }
+        }
+    }
+
+    #[test]
+    fn same_seed_same_result_and_rank_deficient_is_finite() {
+        let rows = vec![vec![1.0, 0.0, 0.0], vec![2.0, 0.0, 0.0], vec![0.0; 3]];
+        let a = dense_to_sparse(&rows);
+        let x = truncated_svd(&a, 3, 1).unwrap();
+        let y = truncated_svd(&a, 3, 1).unwrap();
+        assert_eq!(x, y);
+        assert!((x.singular_values[0] - 5f64.sqrt()).abs() < 1e-12);
+        assert!(x.singular_values[1].abs() < 1e-12);
+        assert!(x.scores[[1, 0]] > 0.0);
+        assert_eq!(latent_cosine_distance(&x.scores, 0, 1), 0.0);
+        assert_eq!(latent_cosine_distance(&x.scores, 0, 2), 1.0);
+    }
+}
