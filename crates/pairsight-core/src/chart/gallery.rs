@@ -96,4 +96,20 @@ fn gallery_renders() {
     let tall = demo_love(32, 3);
     let h = love_height_hint(tall.terms.len());
     save("love-tall.svg", &love_svg(&tall, 800, h).unwrap());
+    save(
+        "overlap-3.svg",
+        &overlap_svg(&overlap::tests::sample(2), 800, 600).unwrap(),
+    );
+    save(
+        "overlap-4.svg",
+        &overlap_svg(&overlap::tests::sample(3), 800, 600).unwrap(),
+    );
+    save(
+        "overlap-1.svg",
+        &overlap_svg(&overlap::tests::sample(0), 800, 600).unwrap(),
+    );
+    save(
+        "sensitivity.svg",
+        &sensitivity_svg(&sensitivity::tests::sample(), 800, 600).unwrap(),
+    );
 }

@@ -244,7 +244,8 @@ pub fn draw_love<DB: DrawingBackend>(
     let order = row_order(input);
     let n = order.len();
     let row_h = (plot_bottom - plot_top) as f64 / n as f64;
-    let label_px = (row_h * 0.62).clamp(8.0, 12.5);
+    // Half-pixel steps keep the written sizes short.
+    let label_px = ((row_h * 0.62).clamp(8.0, 12.5) * 2.0).round() / 2.0;
     let labels: Vec<(String, bool)> = order
         .iter()
         .map(|&i| {
@@ -465,6 +466,17 @@ mod tests {
             svg.matches("<polygon opacity=\"1\" fill=\"#D55E00\"")
                 .count(),
             6
+        );
+    }
+
+    #[test]
+    fn svg_text_is_written_at_the_size_asked_for() {
+        // plotters' SVG backend divides the size by 1.24; the pen compensates,
+        // so the 12-pixel legend is written as font-size 12.
+        let svg = love_svg(&sample(5, 1), 800, 600).unwrap();
+        assert!(svg.contains("font-size=\"12\""));
+        assert!(
+            svg.contains("font-size=\"16\" opacity=\"1\" fill=\"#222222\" font-weight=\"bold\"")
         );
     }
 

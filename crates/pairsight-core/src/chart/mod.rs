@@ -34,8 +34,12 @@
 #[cfg(test)]
 mod gallery;
 mod love;
+mod overlap;
+mod sensitivity;
 
 pub use love::{draw_love, love_height_hint, love_svg, LoveDesign, LoveInput, LoveTerm, TermOrder};
+pub use overlap::{draw_overlap, overlap_svg, OverlapInput, OverlapPanel};
+pub use sensitivity::{draw_sensitivity, sensitivity_svg, SensitivityInput};
 
 use crate::{Error, Result};
 use plotters::coord::Shift;
@@ -403,7 +407,6 @@ pub(crate) struct LegendEntry {
 
 /// What a legend entry shows beside its label.
 #[derive(Clone, Copy)]
-#[allow(dead_code)] // the other charts use every variant
 pub(crate) enum Swatch {
     Marker(Shape, RGBColor),
     Block(RGBColor),
