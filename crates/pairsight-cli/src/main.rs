@@ -5,6 +5,8 @@ use clap::{Parser, Subcommand};
 use std::process::ExitCode;
 
 mod demo;
+mod io;
+mod matching;
 
 /// pairsight: match treated and comparison patients on structured and
 /// note-derived covariates, check balance, estimate the effect. Runs offline.
@@ -19,12 +21,15 @@ struct Cli {
 enum Command {
     /// Write the invented demo cohort, its study file and its known truth.
     Demo(demo::DemoArgs),
+    /// Run a study's designs: score, match, balance and effect, one folder per design.
+    Match(matching::MatchArgs),
 }
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
         Command::Demo(args) => demo::run(&args),
+        Command::Match(args) => matching::run(&args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

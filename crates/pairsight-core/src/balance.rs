@@ -38,6 +38,17 @@ pub enum TermKind {
     Note,
     /// A concept count or flag found in a note.
     Concept,
+    /// The missingness indicator of a covariate (`name.missing`), 0/1.
+    Missing,
+    /// A derived term: `square(x)` or `product(x, y)`.
+    Derived,
+}
+
+impl TermKind {
+    /// Whether the term comes from the notes.
+    pub fn is_note_derived(self) -> bool {
+        matches!(self, TermKind::Note | TermKind::Concept)
+    }
 }
 
 /// Name and kind of one term (one column of the balance matrix).

@@ -8,43 +8,14 @@
 //! an explicit `(missing)` level. Rows with a missing group are left out and
 //! counted. Every fill and every row left out is recorded.
 
+use crate::balance::TermInfo;
+pub use crate::balance::TermKind;
 use crate::ingest::{is_missing, parse_number, Kind, Table};
 use crate::study::{parse_term, Columns, TermSpec};
 use crate::{Error, Result};
 use ndarray::Array2;
 use serde::Serialize;
 use std::collections::BTreeMap;
-
-/// What a term is, as the balance table shows it.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, PartialOrd, Ord)]
-#[serde(rename_all = "lowercase")]
-pub enum TermKind {
-    /// A numeric column.
-    Numeric,
-    /// A 0/1 column.
-    Binary,
-    /// One level of a categorical column (`name=level`), 0/1.
-    Level,
-    /// The missingness indicator of a column (`name.missing`), 0/1.
-    Missing,
-    /// A note feature (`note.*`).
-    Note,
-    /// A concept count (`concept.*`).
-    Concept,
-    /// `square(x)` or `product(x, y)`.
-    Derived,
-}
-
-impl TermKind {
-    /// Whether the term only takes the values 0 and 1.
-    pub fn is_binary(self) -> bool {
-        matches!(self, TermKind::Binary | TermKind::Level | TermKind::Missing)
-    }
-    /// Whether the term comes from the notes.
-    pub fn is_note_derived(self) -> bool {
-        matches!(self, TermKind::Note | TermKind::Concept)
-    }
-}
 
 /// Named numeric columns over the rows used.
 #[derive(Debug, Clone, Default)]
@@ -58,6 +29,18 @@ pub struct Terms {
 }
 
 impl Terms {
+    /// Name and kind of each term, as the balance table takes them.
+    pub fn infos(&self) -> Vec<TermInfo> {
+        self.names
+            .iter()
+            .zip(&self.kinds)
+            .map(|(name, kind)| TermInfo {
+                name: name.clone(),
+                kind: *kind,
+            })
+            .collect()
+    }
+
     fn from_columns(cols: Vec<(String, TermKind, Vec<f64>)>, n: usize) -> Terms {
         let mut values = Array2::zeros((n, cols.len()));
         let mut names = Vec::with_capacity(cols.len());

@@ -6,6 +6,8 @@
 //! allowed.
 
 use crate::ingest::{nearest, Kind};
+pub use crate::matching::Algorithm;
+use crate::notes::{Concept, NoteOptions, MAX_LATENT_DIMS};
 use crate::{Error, Result};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
@@ -18,10 +20,10 @@ pub struct Study {
     pub columns: Columns,
     /// Named term lists looked for in notes.
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
-    pub concepts: Vec<ConceptSpec>,
+    pub concepts: Vec<Concept>,
     /// How notes are turned into tokens and vectors.
     #[serde(default)]
-    pub note_options: NoteSettings,
+    pub note_options: NoteOptions,
     /// Designs to build and compare.
     #[serde(default)]
     pub designs: Vec<Design>,
@@ -51,54 +53,6 @@ pub struct Columns {
     pub kinds: BTreeMap<String, Kind>,
 }
 
-/// A concept: a named list of terms and phrases looked for in notes.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(deny_unknown_fields)]
-pub struct ConceptSpec {
-    /// Name; the features are `concept.<name>` and `concept.<name>.negated`.
-    pub name: String,
-    /// Terms and multi-word phrases, matched on word boundaries, any case.
-    pub terms: Vec<String>,
-    /// Whether negated mentions ("denies falls") are counted apart.
-    #[serde(default = "yes")]
-    pub negation: bool,
-}
-
-fn yes() -> bool {
-    true
-}
-
-/// Options for note tokens and vectors.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-#[serde(deny_unknown_fields, default)]
-pub struct NoteSettings {
-    /// Keep one-character tokens.
-    pub single_char_tokens: bool,
-    /// Drop words from pairsight's own stop-word list.
-    pub stop_words: bool,
-    /// Reduce words to their Snowball stems.
-    pub stem: bool,
-    /// Add two-word tokens.
-    pub bigrams: bool,
-    /// Number of latent dimensions (`note.lsa1` ..); 0 for none.
-    pub latent_dims: usize,
-    /// Seed of the randomized decomposition.
-    pub seed: u64,
-}
-
-impl Default for NoteSettings {
-    fn default() -> Self {
-        NoteSettings {
-            single_char_tokens: false,
-            stop_words: false,
-            stem: false,
-            bigrams: false,
-            latent_dims: 10,
-            seed: 20_110_101,
-        }
-    }
-}
-
 /// How two units' distance is measured.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]
@@ -111,16 +65,6 @@ pub enum DistanceKind {
     NoteCosine,
     /// A weighted sum of the standardized distances above.
     Blend,
-}
-
-/// Matching algorithm.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
-#[serde(rename_all = "kebab-case")]
-pub enum Algorithm {
-    /// Nearest available, largest score first.
-    Greedy,
-    /// Least total distance.
-    Optimal,
 }
 
 /// Which note vectors the `note-cosine` distance compares.
@@ -292,10 +236,10 @@ impl Study {
                 ));
             }
         }
-        if self.note_options.latent_dims > 200 {
+        if self.note_options.latent_dims > MAX_LATENT_DIMS {
             return Err(Error::study(
                 "note_options.latent_dims",
-                "at most 200 latent dimensions are supported",
+                format!("at most {MAX_LATENT_DIMS} latent dimensions are supported"),
             ));
         }
         let mut names = BTreeMap::new();

@@ -21,6 +21,7 @@ fn yes() -> bool {
 /// Matching ignores case and treats any run of whitespace (line breaks too)
 /// as one space, on token boundaries: "fall" does not match inside "fallen".
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
 pub struct Concept {
     /// Name, used in feature names `concept.<name>` and `concept.<name>.negated`:
     /// letters, digits, `_` and `-` only.

@@ -52,7 +52,7 @@ pub const MAX_LATENT_DIMS: usize = 500;
 /// How notes become tokens and vectors. Every field has a default, so a
 /// study file may give none of them.
 #[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
-#[serde(default)]
+#[serde(default, deny_unknown_fields)]
 pub struct NoteOptions {
     /// Keep one-character tokens ("x", "f") too (default false: tokens are
     /// runs of two or more word characters).
