@@ -759,6 +759,31 @@ mod tests {
         assert_eq!(a.n_units, 3);
     }
 
+    proptest::proptest! {
+        #[test]
+        fn statistics_stay_in_range(
+            cells in proptest::collection::vec(proptest::option::of(1u8..6), 12..90),
+        ) {
+            let k = 3;
+            let n = cells.len() / k;
+            let m = ndarray::Array2::from_shape_fn((n, k), |(i, j)| {
+                cells[i * k + j].map_or(f64::NAN, f64::from)
+            });
+            let p = AlphaParams { bootstrap: 50, ..AlphaParams::default() };
+            if let Ok(a) = krippendorff_alpha(m.view(), &p) {
+                proptest::prop_assert!(a.alpha <= 1.0 + 1e-12);
+            }
+            let a: Vec<f64> = m.column(0).to_vec();
+            let b: Vec<f64> = m.column(1).to_vec();
+            for w in [KappaWeights::Unweighted, KappaWeights::Linear, KappaWeights::Quadratic] {
+                let p = KappaParams { weights: w, ..KappaParams::default() };
+                if let Ok(kp) = cohen_kappa(&a, &b, &p) {
+                    proptest::prop_assert!((-1.0 - 1e-12..=1.0 + 1e-12).contains(&kp.kappa));
+                }
+            }
+        }
+    }
+
     #[test]
     fn icc_rejects_missing() {
         let m = array![[1.0, 2.0], [f64::NAN, 3.0], [4.0, 4.0]];
