@@ -148,6 +148,12 @@ def effects():
     t = base + rng.normal(0.8, 1.5, size=30)
     c = base + rng.normal(0, 1.5, size=30)
     out["continuous_exact"] = continuous_case(t, c, 0.95, "exact")
+    # Small sample with zero differences (dropped first) and no ties among
+    # the rest: scipy drops the zeros and uses the exact distribution.
+    t = rng.normal(4, 2, size=24)
+    c = t - rng.normal(0.6, 1.2, size=24)
+    c[[3, 11, 17]] = t[[3, 11, 17]]
+    out["continuous_zeros_exact"] = continuous_case(t, c, 0.90, "exact")
     # Larger sample rounded to whole days: ties and zeros, method='asymptotic'.
     base = rng.gamma(3, 2, size=150)
     t = np.round(base + rng.normal(-0.5, 2.0, size=150))

@@ -803,6 +803,31 @@ mod tests {
         assert!(estimate(&s, OutcomeKind::Binary, &EffectParams::default()).is_err());
     }
 
+    proptest::proptest! {
+        #[test]
+        fn never_panics_and_interval_holds_estimate(
+            t in proptest::collection::vec(0u8..2, 2..40),
+            c in proptest::collection::vec(0u8..2, 2..40),
+            y in proptest::collection::vec(-1e3f64..1e3, 2..40),
+        ) {
+            let n = t.len().min(c.len());
+            let s: Vec<SetOutcomes> = (0..n)
+                .map(|i| SetOutcomes { treated: t[i] as f64, controls: vec![c[i] as f64] })
+                .collect();
+            let e = estimate(&s, OutcomeKind::Binary, &EffectParams::default()).unwrap();
+            proptest::prop_assert!(e.ci_low <= e.estimate && e.estimate <= e.ci_high);
+            proptest::prop_assert!((0.0..=1.0).contains(&e.p_value));
+            let s: Vec<SetOutcomes> = y
+                .windows(2)
+                .map(|w| SetOutcomes { treated: w[0], controls: vec![w[1]] })
+                .collect();
+            if s.len() >= 2 {
+                let e = estimate(&s, OutcomeKind::Continuous, &EffectParams::default()).unwrap();
+                proptest::prop_assert!((0.0..=1.0).contains(&e.p_value));
+            }
+        }
+    }
+
     #[test]
     fn bootstrap_is_deterministic_and_covers_estimate() {
         let mut r = Rng::new(5);

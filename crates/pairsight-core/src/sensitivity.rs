@@ -183,7 +183,7 @@ fn build(
         }
         // Round up to the 0.01 grid, staying at a Gamma where the bound
         // already exceeds alpha.
-        let r = (hi * 100.0).ceil() / 100.0;
+        let r = ((hi * 100.0).ceil() / 100.0).min(params.gamma_max);
         Some(if up(r) > params.alpha { r } else { hi })
     };
     RosenbaumBounds {

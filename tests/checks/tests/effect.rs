@@ -228,12 +228,11 @@ fn binary_pairs_match_statsmodels_mcnemar() {
 fn check_continuous(case: &Value, exact: bool) {
     let t = floats(&case["treated"]);
     let c = floats(&case["control"]);
-    let e = effect::estimate(
-        &pairs(&t, &c),
-        OutcomeKind::Continuous,
-        &EffectParams::default(),
-    )
-    .unwrap();
+    let p = EffectParams {
+        level: f(case, "level"),
+        ..EffectParams::default()
+    };
+    let e = effect::estimate(&pairs(&t, &c), OutcomeKind::Continuous, &p).unwrap();
     // scipy.stats.ttest_rel and its confidence_interval.
     near(e.estimate, f(case, "estimate"), 1e-12, "mean difference");
     near(e.ci_low, f(case, "ci_low"), 1e-11, "paired t ci_low");
@@ -258,6 +257,7 @@ fn check_continuous(case: &Value, exact: bool) {
 fn continuous_pairs_match_scipy_wilcoxon_and_ttest_rel() {
     let r = reference("effect");
     check_continuous(&r["effect"]["continuous_exact"], true);
+    check_continuous(&r["effect"]["continuous_zeros_exact"], true);
     check_continuous(&r["effect"]["continuous_ties"], false);
 }
 
