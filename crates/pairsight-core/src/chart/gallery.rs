@@ -96,6 +96,15 @@ fn gallery_renders() {
     let tall = demo_love(32, 3);
     let h = love_height_hint(tall.terms.len());
     save("love-tall.svg", &love_svg(&tall, 800, h).unwrap());
+    let mut six = demo_love(0, 3);
+    for k in 3..6 {
+        let mut d = six.designs[k % 3].clone();
+        d.name = format!("variant {k} with a rather long design name");
+        six.designs.push(d);
+    }
+    six.terms[0].label =
+        "a very long covariate label that goes on and on past any sensible width".into();
+    save("love-6.svg", &love_svg(&six, 800, 600).unwrap());
     save(
         "overlap-3.svg",
         &overlap_svg(&overlap::tests::sample(2), 800, 600).unwrap(),

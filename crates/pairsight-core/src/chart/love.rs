@@ -246,23 +246,25 @@ pub fn draw_love<DB: DrawingBackend>(
     let row_h = (plot_bottom - plot_top) as f64 / n as f64;
     // Half-pixel steps keep the written sizes short.
     let label_px = ((row_h * 0.62).clamp(8.0, 12.5) * 2.0).round() / 2.0;
-    let labels: Vec<(String, bool)> = order
+    // (label, marks, italic): the marks are kept whole when a long label
+    // is shortened, since they carry meaning.
+    let labels: Vec<(String, String, bool)> = order
         .iter()
         .map(|&i| {
             let t = &input.terms[i];
-            let mut s = t.label.clone();
+            let mut marks = String::new();
             if t.from_note {
-                s.push_str(" (note)");
+                marks.push_str(" (note)");
             }
             if undefined_row(i) {
-                s.push_str(" \u{2014} undefined");
+                marks.push_str(" \u{2014} undefined");
             }
-            (s, t.from_note)
+            (t.label.clone(), marks, t.from_note)
         })
         .collect();
     let widest = labels
         .iter()
-        .map(|(s, _)| text_width(s, label_px))
+        .map(|(s, m, _)| text_width(s, label_px) + text_width(m, label_px))
         .fold(0.0, f64::max);
     let label_w = widest.min(w as f64 * 0.42).ceil() as i32;
     let plot_left = pad + label_w + 10;
@@ -385,13 +387,14 @@ pub fn draw_love<DB: DrawingBackend>(
     let spread = (row_h * 0.55 / (nd.max(1) as f64 + 1.0)).min(4.0);
     for (rank, &i) in order.iter().enumerate() {
         let y = row_y(rank);
-        let (label, italic) = &labels[rank];
+        let (label, marks, italic) = &labels[rank];
+        let room = label_w as f64 - text_width(marks, label_px);
         let mut f = Font::new(label_px, palette::INK);
         if *italic {
             f = f.italic();
         }
         pen.text(
-            &fit_text(label, label_px, label_w as f64),
+            &format!("{}{marks}", fit_text(label, label_px, room)),
             plot_left - 8,
             y,
             f,
@@ -503,6 +506,15 @@ mod tests {
         // 2 before points + 1 legend; 2 after points + 1 legend.
         assert_eq!(svg.matches("fill=\"none\" stroke=\"#000000\"").count(), 3);
         assert_eq!(svg.matches("fill=\"#0072B2\" stroke=\"none\"").count(), 3);
+    }
+
+    #[test]
+    fn shortened_labels_keep_their_marks() {
+        let mut input = sample(3, 1);
+        input.terms[0].label = "an extremely long note feature name ".repeat(6);
+        input.terms[0].before = None;
+        let svg = love_svg(&input, 800, 600).unwrap();
+        assert!(svg.contains("\u{2026} (note) \u{2014} undefined"));
     }
 
     #[test]
