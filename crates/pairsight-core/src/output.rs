@@ -50,15 +50,43 @@ pub fn opt(x: Option<f64>) -> String {
     x.map_or_else(|| "NA".to_string(), num)
 }
 
+/// Characters that make a spreadsheet treat a cell as a formula.
+fn is_trigger(c: char) -> bool {
+    matches!(c, '=' | '+' | '-' | '@' | '\t' | '\r')
+}
+
 /// Neutralise a cell a spreadsheet would run as a formula (one starting with
 /// `=`, `+`, `-`, `@`, tab or carriage return) by prefixing an apostrophe, the
-/// usual guard against CSV injection (OWASP, "CSV Injection"). Numbers are
-/// written by [`num`] and never pass through here, so "-0.5" stays a number.
+/// usual guard against CSV injection (OWASP, "CSV Injection"). A cell that
+/// already starts with an apostrophe before such a character (or before
+/// another apostrophe) gains one more, so [`restore_cell`] undoes this
+/// exactly. Numbers are written by [`num`] and never pass through here, so
+/// "-0.5" stays a number. Every CSV writer passes text cells through this.
 pub fn safe_cell(cell: &str) -> String {
-    match cell.chars().next() {
-        Some('=' | '+' | '-' | '@' | '\t' | '\r') => format!("'{cell}"),
-        _ => cell.to_string(),
+    let mut chars = cell.chars();
+    let needs = match chars.next() {
+        Some(c) if is_trigger(c) => true,
+        Some('\'') => matches!(chars.next(), Some(c) if is_trigger(c) || c == '\''),
+        _ => false,
+    };
+    if needs {
+        format!("'{cell}")
+    } else {
+        cell.to_string()
     }
+}
+
+/// Undo [`safe_cell`]: `restore_cell(&safe_cell(s)) == s` for every string.
+pub fn restore_cell(cell: &str) -> String {
+    let mut chars = cell.chars();
+    if chars.next() == Some('\'') {
+        if let Some(c) = chars.next() {
+            if is_trigger(c) || c == '\'' {
+                return cell[1..].to_string();
+            }
+        }
+    }
+    cell.to_string()
 }
 
 /// Build CSV text: a header and rows of already formatted cells. Text cells

@@ -23,41 +23,7 @@ pub const RATINGS_HEADER: [&str; 6] = [
     "round_id", "pair_key", "reviewer", "rating", "comment", "time",
 ];
 
-/// Characters that make a spreadsheet treat a cell as a formula.
-fn is_trigger(c: char) -> bool {
-    matches!(c, '=' | '+' | '-' | '@' | '\t' | '\r')
-}
-
-/// `cell` made safe to open in a spreadsheet: prefixed with an apostrophe
-/// when it would otherwise be read as a formula (see the module notes).
-/// Every CSV writer of the project should pass text cells through this.
-pub fn csv_safe_cell(cell: &str) -> String {
-    let mut chars = cell.chars();
-    let needs = match chars.next() {
-        Some(c) if is_trigger(c) => true,
-        Some('\'') => matches!(chars.next(), Some(c) if is_trigger(c) || c == '\''),
-        _ => false,
-    };
-    if needs {
-        format!("'{cell}")
-    } else {
-        cell.to_string()
-    }
-}
-
-/// Undoes [`csv_safe_cell`]: `csv_restore_cell(&csv_safe_cell(s)) == s` for
-/// every string.
-pub fn csv_restore_cell(cell: &str) -> String {
-    let mut chars = cell.chars();
-    if chars.next() == Some('\'') {
-        if let Some(c) = chars.next() {
-            if is_trigger(c) || c == '\'' {
-                return cell[1..].to_string();
-            }
-        }
-    }
-    cell.to_string()
-}
+pub use crate::output::{restore_cell as csv_restore_cell, safe_cell as csv_safe_cell};
 
 /// One rating as written to a ratings file.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
