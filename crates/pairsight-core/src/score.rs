@@ -594,6 +594,12 @@ fn newton(d: &Design, y: &[f64], params: &LogitParams, pen: Penalty) -> Result<R
             converged = true;
             break;
         }
+        // Under separation the coefficients grow without bound; once fitted
+        // probabilities sit at 0 or 1 more steps only waste passes.
+        if matches!(pen, Penalty::None) && iterations >= 8 && cur.eta.iter().any(|e| e.abs() > 30.0)
+        {
+            break;
+        }
     }
     // Separation shows as fitted probabilities numerically at 0 or 1: an
     // |eta| of 30 is a probability within 1e-13 of the boundary, which a
@@ -677,6 +683,20 @@ mod tests {
         for (a, b) in f.logit.iter().zip(&g.logit) {
             assert!((a - b).abs() < 1e-9);
         }
+    }
+
+    #[test]
+    fn a_full_set_of_level_indicators_drops_the_last_one() {
+        let mut r = Rng::new(3);
+        let n = 400;
+        let level: Vec<usize> = (0..n).map(|_| r.below(3)).collect();
+        let x = Array2::from_shape_fn((n, 3), |(i, j)| (level[i] == j) as u8 as f64);
+        let t: Vec<bool> = (0..n)
+            .map(|i| r.bernoulli(0.3 + 0.2 * level[i] as f64))
+            .collect();
+        let f = fit_logistic(x.view(), &t, &LogitParams::default()).unwrap();
+        assert_eq!(f.dropped_columns, vec![2]);
+        assert!(f.converged);
     }
 
     #[test]
