@@ -297,9 +297,9 @@ fn validate(x: ArrayView2<f64>, treated: &[bool], params: &LogitParams) -> Resul
 /// The logistic function, written to stay finite for large |eta|.
 pub fn sigmoid(eta: f64) -> f64 {
     if eta >= 0.0 {
-        1.0 / (1.0 + (-eta).exp())
+        1.0 / (1.0 + libm::exp(-eta))
     } else {
-        let e = eta.exp();
+        let e = libm::exp(eta);
         e / (1.0 + e)
     }
 }
@@ -307,9 +307,9 @@ pub fn sigmoid(eta: f64) -> f64 {
 /// log(1 + exp(eta)) without overflow.
 fn softplus(eta: f64) -> f64 {
     if eta > 0.0 {
-        eta + (-eta).exp().ln_1p()
+        eta + libm::log1p(libm::exp(-eta))
     } else {
-        eta.exp().ln_1p()
+        libm::log1p(libm::exp(eta))
     }
 }
 
@@ -525,7 +525,7 @@ fn penalized(d: &Design, y: &[f64], beta: &[f64], pen: Penalty) -> Option<(Pass,
         // Firth (1993): maximize l(beta) + 1/2 log|I(beta)|; the modified
         // score is X'(y - p + h (1/2 - p)) with h the diagonal of the hat
         // matrix W^1/2 X (X'WX)^-1 X' W^1/2 (Heinze & Schemper 2002, eq. 2).
-        let logdet: f64 = (0..q).map(|j| l[j * q + j].ln()).sum::<f64>() * 2.0;
+        let logdet: f64 = (0..q).map(|j| libm::log(l[j * q + j])).sum::<f64>() * 2.0;
         obj += 0.5 * logdet;
         let mut v = vec![0.0; q];
         let mut g = vec![0.0; q];
