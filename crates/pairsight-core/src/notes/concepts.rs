@@ -76,6 +76,15 @@ pub(crate) struct Normalized {
 
 impl Normalized {
     pub(crate) fn new(text: &str) -> Self {
+        Self::build(text, true)
+    }
+
+    /// Without the map back to the original (enough for counting).
+    pub(crate) fn for_counting(text: &str) -> Self {
+        Self::build(text, false)
+    }
+
+    fn build(text: &str, keep_map: bool) -> Self {
         let mut out = String::with_capacity(text.len());
         let mut orig = Vec::with_capacity(text.len() + 1);
         let mut breaks = Vec::new();
@@ -84,7 +93,9 @@ impl Normalized {
             if c.is_whitespace() {
                 if !in_space {
                     out.push(' ');
-                    orig.push(i);
+                    if keep_map {
+                        orig.push(i);
+                    }
                     in_space = true;
                 }
                 if matches!(c, '\n' | '\r' | '\u{2028}' | '\u{2029}')
@@ -97,16 +108,22 @@ impl Normalized {
             in_space = false;
             if c.is_ascii() {
                 out.push(c.to_ascii_lowercase());
-                orig.push(i);
+                if keep_map {
+                    orig.push(i);
+                }
             } else if matches!(c, '\u{2018}' | '\u{2019}') {
                 // Typographic apostrophes read as the plain one ("isn’t").
                 out.push('\'');
-                orig.push(i);
+                if keep_map {
+                    orig.push(i);
+                }
             } else {
                 for lc in c.to_lowercase() {
                     let before = out.len();
                     out.push(lc);
-                    orig.extend(std::iter::repeat_n(i, out.len() - before));
+                    if keep_map {
+                        orig.extend(std::iter::repeat_n(i, out.len() - before));
+                    }
                 }
             }
         }
@@ -358,7 +375,7 @@ impl ConceptMatcher {
         if self.ac.is_none() || note.is_empty() {
             return counts;
         }
-        let norm = Normalized::new(note);
+        let norm = Normalized::for_counting(note);
         for m in self.mentions(&norm) {
             if m.negated {
                 counts[m.concept].1 += 1;

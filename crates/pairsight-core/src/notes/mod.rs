@@ -201,8 +201,9 @@ pub fn analyze<S: AsRef<str>>(
         base[[i, 1]] = tc.sentences as f64;
         base[[i, 2]] = flesch_reading_ease(&tc);
         base[[i, 3]] = flesch_kincaid_grade(&tc);
-        base[[i, 4]] = type_token_ratio(&word_list);
-        base[[i, 5]] = mtld(&word_list);
+        let (ttr, mtld) = diversity::ttr_and_mtld(&word_list);
+        base[[i, 4]] = ttr;
+        base[[i, 5]] = mtld;
         if !concepts.is_empty() {
             for (c, (aff, neg)) in matcher.count(note).into_iter().enumerate() {
                 concept_counts[[i, 2 * c]] = aff as f64;
