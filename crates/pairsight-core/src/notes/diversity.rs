@@ -90,16 +90,62 @@ pub fn mtld<S: AsRef<str>>(words: &[S]) -> f64 {
     mtld_with(words, MTLD_THRESHOLD)
 }
 
-/// Type-token ratio and MTLD (threshold 0.72) in one go.
-pub(crate) fn ttr_and_mtld(words: &[&str]) -> (f64, f64) {
-    if words.is_empty() {
-        return (0.0, 0.0);
+/// Type-token ratio, MTLD (threshold 0.72) and syllable count of many
+/// notes, one after another: one word-to-number map for the whole corpus
+/// saves building a map per note, and each distinct word's syllables are
+/// counted once.
+#[derive(Default)]
+pub(crate) struct Diversity {
+    ids: FastMap<Box<str>, u32>,
+    syllables: Vec<u32>,
+    local: Vec<u32>,
+    note_ids: Vec<u32>,
+    stamp: Vec<u32>,
+    note: u32,
+}
+
+impl Diversity {
+    /// (type-token ratio, MTLD, syllables) of one note's words.
+    pub(crate) fn measure(&mut self, words: &[&str]) -> (f64, f64, usize) {
+        if words.is_empty() {
+            return (0.0, 0.0, 0);
+        }
+        let mut syllables = 0usize;
+        // Renumber this note's words 0.. in first-seen order.
+        self.note = self.note.wrapping_add(1);
+        if self.note == 0 {
+            self.stamp.fill(0);
+            self.note = 1;
+        }
+        self.note_ids.clear();
+        let mut types = 0u32;
+        for w in words {
+            let global = match self.ids.get(*w) {
+                Some(&g) => g,
+                None => {
+                    let g = self.ids.len() as u32;
+                    self.ids.insert((*w).into(), g);
+                    self.stamp.push(0);
+                    self.local.push(0);
+                    self.syllables.push(super::readability::syllables(w) as u32);
+                    g
+                }
+            } as usize;
+            syllables += self.syllables[global] as usize;
+            if self.stamp[global] != self.note {
+                self.stamp[global] = self.note;
+                self.local[global] = types;
+                types += 1;
+            }
+            self.note_ids.push(self.local[global]);
+        }
+        let types = types as usize;
+        (
+            types as f64 / words.len() as f64,
+            mtld_of_ids(&self.note_ids, types, MTLD_THRESHOLD),
+            syllables,
+        )
     }
-    let (ids, types) = word_ids(words);
-    (
-        types as f64 / words.len() as f64,
-        mtld_of_ids(&ids, types, MTLD_THRESHOLD),
-    )
 }
 
 #[cfg(test)]

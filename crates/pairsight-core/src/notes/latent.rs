@@ -31,15 +31,94 @@ pub struct Latent {
     pub singular_values: Vec<f64>,
 }
 
+/// Dense row-major products with a sparse matrix, in the element type of
+/// the block: single precision during the power iterations (half the memory
+/// traffic, twice the SIMD width), double precision for the final step.
+trait Elem: Copy + Default + std::ops::Mul<Output = Self> + std::ops::AddAssign {
+    fn of(x: f64) -> Self;
+}
+impl Elem for f32 {
+    fn of(x: f64) -> Self {
+        x as f32
+    }
+}
+impl Elem for f64 {
+    fn of(x: f64) -> Self {
+        x
+    }
+}
+
 /// y = A z, with z (cols x l) and y (rows x l) dense row-major.
-fn mul(a: &SparseRows, z: &[f64], l: usize, y: &mut [f64]) {
+fn mul<T: Elem>(indptr: &[usize], indices: &[u32], values: &[T], z: &[T], l: usize, y: &mut [T]) {
     for (i, yi) in y.chunks_exact_mut(l).enumerate() {
-        yi.fill(0.0);
-        let (c, v) = a.row(i);
-        for (&j, &x) in c.iter().zip(v) {
+        yi.fill(T::default());
+        let (a, b) = (indptr[i], indptr[i + 1]);
+        for (&j, &x) in indices[a..b].iter().zip(&values[a..b]) {
             let zj = &z[j as usize * l..j as usize * l + l];
             for (t, &s) in yi.iter_mut().zip(zj) {
                 *t += x * s;
+            }
+        }
+    }
+}
+
+/// Orthonormal basis of the columns of a row-major r x l block, in place:
+/// Cholesky QR (Q = Z R^-1 with R'R = Z'Z, Gram matrix accumulated in double
+/// precision; Stathopoulos & Wu 2002, SIAM J Sci Comput 23(6):2165-2182),
+/// falling back to Householder QR when the Gram matrix is too ill-conditioned
+/// for a safe Cholesky factor (for example a rank-deficient block).
+fn orthonormalize<T: Elem + Into<f64>>(buf: &mut [T], r: usize, l: usize) {
+    let mut g = DMatrix::<f64>::zeros(l, l);
+    let mut row = vec![0.0f64; l];
+    for chunk in buf.chunks_exact(l) {
+        for (d, &x) in row.iter_mut().zip(chunk) {
+            *d = x.into();
+        }
+        for a in 0..l {
+            let ra = row[a];
+            if ra != 0.0 {
+                for b in a..l {
+                    g[(a, b)] += ra * row[b];
+                }
+            }
+        }
+    }
+    for a in 0..l {
+        for b in 0..a {
+            g[(a, b)] = g[(b, a)];
+        }
+    }
+    let max_diag = (0..l).map(|a| g[(a, a)]).fold(0.0, f64::max);
+    let chol = nalgebra::Cholesky::new(g).map(|c| c.l());
+    let ok = chol.as_ref().is_some_and(|lower| {
+        max_diag > 0.0 && (0..l).all(|a| lower[(a, a)] * lower[(a, a)] > 1e-10 * max_diag)
+    });
+    match chol {
+        Some(lower) if ok => {
+            // Each row q solves L q' = z' (forward substitution).
+            for chunk in buf.chunks_exact_mut(l) {
+                for (d, &x) in row.iter_mut().zip(chunk.iter()) {
+                    *d = x.into();
+                }
+                for j in 0..l {
+                    let mut t = row[j];
+                    for i in 0..j {
+                        t -= lower[(j, i)] * row[i];
+                    }
+                    row[j] = t / lower[(j, j)];
+                }
+                for (d, &x) in chunk.iter_mut().zip(&row) {
+                    *d = T::of(x);
+                }
+            }
+        }
+        _ => {
+            let m = DMatrix::from_fn(r, l, |i, j| buf[i * l + j].into());
+            let q = m.qr().q();
+            for i in 0..r {
+                for j in 0..l {
+                    buf[i * l + j] = T::of(q[(i, j)]);
+                }
             }
         }
     }
@@ -115,16 +194,6 @@ fn gram_svd(buf: &[f64], l: usize) -> Result<(Vec<f64>, DMatrix<f64>)> {
     Ok((s, v))
 }
 
-/// Orthonormal basis of the columns of a row-major r x l buffer, in place.
-fn orthonormalize(buf: &mut [f64], r: usize, l: usize) {
-    let q = DMatrix::from_row_slice(r, l, buf).qr().q();
-    for i in 0..r {
-        for j in 0..l {
-            buf[i * l + j] = q[(i, j)];
-        }
-    }
-}
-
 /// Truncated SVD of `a` to `k` dimensions (fewer when the matrix has fewer
 /// rows or columns). Deterministic for a given seed.
 ///
@@ -148,17 +217,36 @@ pub fn truncated_svd(a: &SparseRows, k: usize, seed: u64) -> Result<Latent> {
     let mut scores = Array2::<f64>::zeros((n, k));
     let sv: Vec<f64>;
     let at = transpose(a);
+    let a32: Vec<f32> = a.values.iter().map(|&x| x as f32).collect();
+    let at32: Vec<f32> = at.values.iter().map(|&x| x as f32).collect();
+    // Power iterations in single precision on the smaller side; the result
+    // is re-orthonormalized in double precision before the final step.
+    let (side, other) = if m <= n { (m, n) } else { (n, m) };
+    let (first, second) = if m <= n {
+        (
+            (&a.indptr, &a.indices, &a32),
+            (&at.indptr, &at.indices, &at32),
+        )
+    } else {
+        (
+            (&at.indptr, &at.indices, &at32),
+            (&a.indptr, &a.indices, &a32),
+        )
+    };
+    let mut q: Vec<f32> = (0..side * l).map(|_| rng.normal() as f32).collect();
+    let mut tmp = vec![0.0f32; other * l];
+    for _ in 0..=POWER_ITERATIONS {
+        mul(first.0, first.1, first.2, &q, l, &mut tmp);
+        mul(second.0, second.1, second.2, &tmp, l, &mut q);
+        orthonormalize(&mut q, side, l);
+    }
+    let mut q: Vec<f64> = q.into_iter().map(f64::from).collect();
+    orthonormalize(&mut q, side, l);
+    let mut y = vec![0.0f64; other * l];
     if m <= n {
-        // Iterate on the column side: Q spans the top right singular vectors.
-        let mut q: Vec<f64> = (0..m * l).map(|_| rng.normal()).collect();
-        let mut y = vec![0.0; n * l];
-        for _ in 0..=POWER_ITERATIONS {
-            mul(a, &q, l, &mut y);
-            mul(&at, &y, l, &mut q);
-            orthonormalize(&mut q, m, l);
-        }
-        mul(a, &q, l, &mut y);
-        // A Q = U S W', so U S = A Q W (Rayleigh-Ritz on the subspace).
+        // Q spans the top right singular vectors: A Q = U S W', so
+        // U S = A Q W (Rayleigh-Ritz on the subspace).
+        mul(&a.indptr, &a.indices, &a.values, &q, l, &mut y);
         let (s, w) = gram_svd(&y, l)?;
         for i in 0..n {
             for c in 0..k {
@@ -171,17 +259,10 @@ pub fn truncated_svd(a: &SparseRows, k: usize, seed: u64) -> Result<Latent> {
         }
         sv = s;
     } else {
-        // Iterate on the row side: Q spans the top left singular vectors.
-        let mut q: Vec<f64> = (0..n * l).map(|_| rng.normal()).collect();
-        let mut z = vec![0.0; m * l];
-        for _ in 0..=POWER_ITERATIONS {
-            mul(&at, &q, l, &mut z);
-            mul(a, &z, l, &mut q);
-            orthonormalize(&mut q, n, l);
-        }
-        mul(&at, &q, l, &mut z);
-        // A' Q = V S W', so A ~ Q Q' A = (Q W) S V', and U S = Q W S.
-        let (s, w) = gram_svd(&z, l)?;
+        // Q spans the top left singular vectors: A' Q = V S W', so
+        // A ~ Q Q' A = (Q W) S V', and U S = Q W S.
+        mul(&at.indptr, &at.indices, &at.values, &q, l, &mut y);
+        let (s, w) = gram_svd(&y, l)?;
         for i in 0..n {
             for c in 0..k {
                 let mut t = 0.0;
