@@ -115,10 +115,14 @@ pub(crate) fn tfidf(counts: &SparseRows) -> (SparseRows, Vec<f64>) {
 
 /// Note-cosine distance: 1 minus the cosine similarity of TF-IDF rows `i`
 /// and `j`. Rows are unit length, so the similarity is their dot product.
-/// A note without terms (zero row) is at distance 1 from every note,
-/// itself included; out-of-range rows count as empty. The result is clamped
-/// to [0, 2] against rounding.
+/// A note is at distance 0 from itself; a note without terms (zero row) is
+/// at distance 1 from every other note, as scikit-learn's `cosine_distances`
+/// has it; out-of-range rows count as empty. The result is clamped to
+/// [0, 2] against rounding.
 pub fn cosine_distance(tfidf: &SparseRows, i: usize, j: usize) -> f64 {
+    if i == j {
+        return 0.0;
+    }
     let (ci, _) = tfidf.row(i);
     let (cj, _) = tfidf.row(j);
     if ci.is_empty() || cj.is_empty() {
@@ -148,7 +152,8 @@ mod tests {
         assert_eq!(t.row(1).1, &[1.0]);
         assert_eq!(t.row(2).1.len(), 0);
         assert_eq!(cosine_distance(&t, 1, 1), 0.0);
-        assert_eq!(cosine_distance(&t, 2, 2), 1.0);
+        assert_eq!(cosine_distance(&t, 2, 2), 0.0);
+        assert_eq!(cosine_distance(&t, 1, 2), 1.0);
         let d = cosine_distance(&t, 0, 1);
         assert!((d - (1.0 - idf[0] / (idf[0].powi(2) + idf[1].powi(2)).sqrt())).abs() < 1e-15);
     }
