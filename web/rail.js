@@ -28,7 +28,7 @@ export function mountRail(nav, current) {
       },
       el('span', { class: 'rail-number', 'aria-hidden': 'true', text: String(i + 1) }),
       el('span', { class: 'rail-label', text: step.label }),
-      step.built ? null : el('span', { class: 'rail-soon', text: 'coming' }),
+      step.built ? null : el('span', { class: 'rail-soon', title: 'Not built yet', text: 'coming' }),
     ),
   );
   replaceChildren(nav, el('ol', { class: 'rail-steps' }, items));

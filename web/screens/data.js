@@ -64,7 +64,9 @@ export function mountData(screen, engine) {
     const file = input.files?.[0];
     // Clearing the value lets the same file be chosen again after a fix.
     input.value = '';
-    if (file) openFile(file);
+    if (!file) return;
+    clearNotice();
+    openFile(file);
   });
   listenForDrops(dropZone, (files) => {
     if (files.length > 1) showNotice(`${files.length} files were dropped; only “${files[0].name}” was opened.`);
@@ -192,8 +194,6 @@ function drawSummary(section, name, s, markers) {
   const facts = el(
     'dl',
     { class: 'facts' },
-    fact('Rows', formatCount(s.rows), 'summary-rows'),
-    fact('Columns', formatCount(s.columns), 'summary-columns'),
     fact('Encoding', s.encoding, 'summary-encoding'),
     fact('Delimiter', s.delimiter, 'summary-delimiter'),
   );
@@ -207,11 +207,14 @@ function drawSummary(section, name, s, markers) {
   replaceChildren(
     section,
     el('h2', { class: 'file-name', 'data-testid': 'summary-file', text: name }),
-    el('p', {
-      class: 'shape',
-      'data-testid': 'summary-shape',
-      text: `${formatCount(s.rows)} ${s.rows === 1 ? 'row' : 'rows'} × ${formatCount(s.columns)} ${s.columns === 1 ? 'column' : 'columns'}`,
-    }),
+    el(
+      'p',
+      { class: 'shape', 'data-testid': 'summary-shape' },
+      el('span', { 'data-testid': 'summary-rows', text: formatCount(s.rows) }),
+      s.rows === 1 ? ' row × ' : ' rows × ',
+      el('span', { 'data-testid': 'summary-columns', text: formatCount(s.columns) }),
+      s.columns === 1 ? ' column' : ' columns',
+    ),
     facts,
     el('div', { class: 'table-wrap' }, table),
     notes,

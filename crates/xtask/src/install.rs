@@ -153,18 +153,43 @@ fn browser(apt: &mut Apt) -> Result<()> {
     apt.install(&missing)
 }
 
+/// The oldest Node.js the browser tests run on (playwright-core's own floor).
+const NODE_MAJOR: u32 = 20;
+
 fn node(apt: &mut Apt) -> Result<()> {
-    if sh::which("node").is_some() && sh::which("npm").is_some() {
-        println!("ok: node, npm");
-        return Ok(());
+    if sh::which("node").is_none() || sh::which("npm").is_none() {
+        if !apt.usable() {
+            return Err(Failure::new(format!(
+                "the browser tests need Node.js {NODE_MAJOR} or later with npm; install them \
+                 (e.g. `sudo apt-get install nodejs npm`, or from nodejs.org)"
+            )));
+        }
+        println!("installing: nodejs, npm (runner of the browser tests)");
+        apt.install(&["nodejs", "npm"])?;
     }
-    if !apt.usable() {
-        return Err(Failure::new(
-            "the browser tests need Node.js 18 or later with npm; install them (e.g. `sudo apt-get install nodejs npm`)",
-        ));
+    let reported = sh::query("node", &["--version"]).unwrap_or_default();
+    match node_major(&reported) {
+        Some(major) if major >= NODE_MAJOR => {
+            println!("ok: node {}, npm", reported.trim());
+            Ok(())
+        }
+        _ => Err(Failure::new(format!(
+            "the browser tests need Node.js {NODE_MAJOR} or later, found `{}`; install a newer one \
+             (nodejs.org lists the releases)",
+            reported.trim()
+        ))),
     }
-    println!("installing: nodejs, npm (runner of the browser tests)");
-    apt.install(&["nodejs", "npm"])
+}
+
+/// The major version in `node --version` output ("v20.20.2" -> 20).
+fn node_major(reported: &str) -> Option<u32> {
+    reported
+        .trim()
+        .strip_prefix('v')?
+        .split('.')
+        .next()?
+        .parse()
+        .ok()
 }
 
 /// `npm ci` in tests/e2e, unless node_modules already matches the committed
@@ -242,6 +267,14 @@ source = "registry+https://github.com/rust-lang/crates.io-index"
         );
         assert_eq!(lock_version(lock, "serde"), None);
         assert_eq!(lock_version("not toml [", "wasm-bindgen"), None);
+    }
+
+    #[test]
+    fn node_major_versions() {
+        assert_eq!(node_major("v20.20.2\n"), Some(20));
+        assert_eq!(node_major("v18.19.0"), Some(18));
+        assert_eq!(node_major("20.1"), None);
+        assert_eq!(node_major(""), None);
     }
 
     #[test]
