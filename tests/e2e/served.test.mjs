@@ -4,13 +4,12 @@
 
 import { test } from 'node:test';
 import assert from 'node:assert/strict';
-import { assertQuiet, fixture, openBrowser, pickFile, startServer, waitForEngine, workspaceVersion } from './support.mjs';
+import { assertQuiet, fixture, openApp, pickFile, startServer, workspaceVersion } from './support.mjs';
 
 test('served dist/ works and loads only from its own origin', async (t) => {
   const base = await startServer(t);
-  const { page, log } = await openBrowser(t);
-  await page.goto(base);
-  assert.equal(await waitForEngine(page), await workspaceVersion());
+  const { page, log, version } = await openApp(t, base);
+  assert.equal(version, await workspaceVersion());
   await pickFile(page, fixture('cohort_small.csv'));
   assert.equal(await page.getByTestId('summary-shape').textContent(), '12 rows × 12 columns');
   const foreign = log.requests.filter((url) => !url.startsWith(base));
@@ -24,9 +23,7 @@ test('served dist/ works and loads only from its own origin', async (t) => {
 
 test('engine: errors keep their shape, cancel rejects and a fresh worker carries on', async (t) => {
   const base = await startServer(t);
-  const { page, log } = await openBrowser(t);
-  await page.goto(base);
-  await waitForEngine(page);
+  const { page, log } = await openApp(t, base);
   const outcome = await page.evaluate(async () => {
     const { startEngine, locateCore } = await import('./engine.js');
     const engine = startEngine(locateCore(document));

@@ -9,7 +9,7 @@ import {
   SINGLE_FILE,
   assertQuiet,
   fixture,
-  openBrowser,
+  openApp,
   pickFile,
   screenshot,
   settled,
@@ -28,9 +28,8 @@ async function columnTable(page) {
 }
 
 test('a small cohort file is summarised: shape, encoding, delimiter, kinds, missing counts', async (t) => {
-  const { page, log } = await openBrowser(t);
-  await page.goto(APP_URL);
-  assert.equal(await waitForEngine(page), await workspaceVersion());
+  const { page, log, version } = await openApp(t, APP_URL);
+  assert.equal(version, await workspaceVersion());
   await pickFile(page, fixture('cohort_small.csv'));
 
   assert.equal(await page.getByTestId('error-banner').isHidden(), true);
@@ -65,9 +64,7 @@ test('a small cohort file is summarised: shape, encoding, delimiter, kinds, miss
 });
 
 test('the single file makes no request besides itself', async (t) => {
-  const { page, log } = await openBrowser(t);
-  await page.goto(APP_URL);
-  await waitForEngine(page);
+  const { page, log } = await openApp(t, APP_URL);
   await pickFile(page, fixture('cohort_small.csv'));
   await page.goto(`${APP_URL}#demo`);
   await page.reload();
@@ -95,9 +92,7 @@ test('the single file makes no request besides itself', async (t) => {
 });
 
 test('the policy stops a connection attempt before it leaves the page', async (t) => {
-  const { page, log } = await openBrowser(t);
-  await page.goto(APP_URL);
-  await waitForEngine(page);
+  const { page, log } = await openApp(t, APP_URL);
   const outcome = await page.evaluate(async () => {
     const violations = [];
     document.addEventListener('securitypolicyviolation', (e) => violations.push(e.effectiveDirective));
@@ -119,9 +114,7 @@ test('the policy stops a connection attempt before it leaves the page', async (t
 });
 
 test('a malformed file shows the error banner naming the row; a good file afterwards works', async (t) => {
-  const { page, log } = await openBrowser(t);
-  await page.goto(APP_URL);
-  await waitForEngine(page);
+  const { page, log } = await openApp(t, APP_URL);
 
   await pickFile(page, fixture('broken_ragged.csv'));
   const banner = page.getByTestId('error-banner');
@@ -147,9 +140,7 @@ test('a malformed file shows the error banner naming the row; a good file afterw
 });
 
 test('a file dropped on the page opens like a picked one (semicolon, Latin-1)', async (t) => {
-  const { page, log } = await openBrowser(t);
-  await page.goto(APP_URL);
-  await waitForEngine(page);
+  const { page, log } = await openApp(t, APP_URL);
   const bytes = [...(await readFile(fixture('cohort_semicolon_latin1.csv')))];
   const highlighted = await page.evaluate((data) => {
     const transfer = new DataTransfer();
@@ -173,9 +164,7 @@ test('a file dropped on the page opens like a picked one (semicolon, Latin-1)', 
 });
 
 test('#demo says the demo cohort is coming, and the page stays usable', async (t) => {
-  const { page, log } = await openBrowser(t);
-  await page.goto(`${APP_URL}#demo`);
-  await waitForEngine(page);
+  const { page, log } = await openApp(t, `${APP_URL}#demo`);
   const notice = page.getByTestId('notice');
   await notice.waitFor();
   assert.match(await notice.textContent(), /demo cohort .* is coming/);

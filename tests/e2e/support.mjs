@@ -61,6 +61,14 @@ export async function openBrowser(t) {
   return { context, page, log };
 }
 
+/** A fresh browser on `url`, once the page's engine runs. */
+export async function openApp(t, url) {
+  const opened = await openBrowser(t);
+  await opened.page.goto(url);
+  opened.version = await waitForEngine(opened.page);
+  return opened;
+}
+
 /** Nothing went wrong in the page's scripts or the worker. */
 export function assertQuiet(log) {
   assert.deepEqual(log.pageErrors, [], 'uncaught errors in the page');
