@@ -5,6 +5,8 @@ use clap::{Parser, Subcommand};
 use std::process::ExitCode;
 
 mod demo;
+mod effect;
+mod features;
 mod io;
 mod matching;
 
@@ -23,6 +25,10 @@ enum Command {
     Demo(demo::DemoArgs),
     /// Run a study's designs: score, match, balance and effect, one folder per design.
     Match(matching::MatchArgs),
+    /// Write every note feature of every row used to a CSV file.
+    Features(features::FeaturesArgs),
+    /// Print the effect per design and outcome, with its sensitivity to hidden bias.
+    Effect(effect::EffectArgs),
 }
 
 fn main() -> ExitCode {
@@ -30,6 +36,8 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Command::Demo(args) => demo::run(&args),
         Command::Match(args) => matching::run(&args),
+        Command::Features(args) => features::run(&args),
+        Command::Effect(args) => effect::run(&args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
