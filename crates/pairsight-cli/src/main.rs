@@ -4,11 +4,14 @@
 use clap::{Parser, Subcommand};
 use std::process::ExitCode;
 
+mod agree;
 mod demo;
 mod effect;
 mod features;
 mod io;
 mod matching;
+mod packet;
+mod report;
 
 /// pairsight: match treated and comparison patients on structured and
 /// note-derived covariates, check balance, estimate the effect. Runs offline.
@@ -29,6 +32,12 @@ enum Command {
     Features(features::FeaturesArgs),
     /// Print the effect per design and outcome, with its sensitivity to hidden bias.
     Effect(effect::EffectArgs),
+    /// Write one self-contained HTML report of the study's designs.
+    Report(report::ReportArgs),
+    /// Draw a blinded review round: one rating packet per reviewer and a key file.
+    Packet(packet::PacketArgs),
+    /// Merge reviewers' ratings files: agreement and the design comparison.
+    Agree(agree::AgreeArgs),
 }
 
 fn main() -> ExitCode {
@@ -38,6 +47,9 @@ fn main() -> ExitCode {
         Command::Match(args) => matching::run(&args),
         Command::Features(args) => features::run(&args),
         Command::Effect(args) => effect::run(&args),
+        Command::Report(args) => report::run(&args),
+        Command::Packet(args) => packet::run(&args),
+        Command::Agree(args) => agree::run(&args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

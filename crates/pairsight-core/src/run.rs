@@ -297,6 +297,21 @@ impl Analysis {
         })
     }
 
+    /// A design's own distance (the one its matching used) between given
+    /// (treated, comparison) pairs of rows used, e.g. for pairs another
+    /// design matched, so reviewers' ratings can be set against it.
+    pub fn pair_distances(&self, run: &DesignRun, pairs: &[(usize, usize)]) -> Result<Vec<f64>> {
+        let n = self.cohort.len();
+        if let Some(&(t, c)) = pairs.iter().find(|&&(t, c)| t >= n || c >= n) {
+            return Err(Error::param(
+                "pairs",
+                format!("rows {t} and {c}: the cohort has {n} rows used"),
+            ));
+        }
+        let d = self.distance(&run.design, &run.fit)?;
+        Ok(pairs.iter().map(|&(t, c)| d.distance(t, c)).collect())
+    }
+
     fn note_distance(&self, design: &Design) -> Result<Box<dyn PairDistance + '_>> {
         let f = self.notes.as_ref().ok_or_else(|| {
             Error::study(
