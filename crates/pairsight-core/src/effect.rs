@@ -574,8 +574,8 @@ fn paired_risk_ratio(a: f64, b: f64, c: f64, z: f64) -> Option<RatioEstimate> {
     let se = ((b + c) / (p1 * p0)).sqrt();
     Some(RatioEstimate {
         estimate: rr,
-        ci_low: rr * (-z * se).exp(),
-        ci_high: rr * (z * se).exp(),
+        ci_low: rr * libm::exp(-z * se),
+        ci_high: rr * libm::exp(z * se),
     })
 }
 
@@ -744,8 +744,8 @@ pub fn unmatched(
                 let se = (1.0 / a - 1.0 / n1 + 1.0 / c - 1.0 / n0).sqrt();
                 out.risk_ratio = Some(RatioEstimate {
                     estimate: rr,
-                    ci_low: rr * (-z * se).exp(),
-                    ci_high: rr * (z * se).exp(),
+                    ci_low: rr * libm::exp(-z * se),
+                    ci_high: rr * libm::exp(z * se),
                 });
             }
         }

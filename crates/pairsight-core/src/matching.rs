@@ -242,13 +242,7 @@ impl Prepared {
             }
         };
         let treated_rows: Vec<usize> = (0..n).filter(|&i| input.treated[i]).collect();
-        let mut comp: Vec<usize> = (0..n).filter(|&i| !input.treated[i]).collect();
-        comp.sort_unstable_by(|&a, &b| {
-            stratum[a]
-                .cmp(&stratum[b])
-                .then(cmp_finite(input.logit[a], input.logit[b]))
-                .then(a.cmp(&b))
-        });
+        let comp = sorted_rows((0..n).filter(|&i| !input.treated[i]), &stratum, input.logit);
         let comp_logit: Vec<f64> = comp.iter().map(|&c| input.logit[c]).collect();
         let mut range = vec![(0, 0); n_strata];
         let mut start = 0;
@@ -289,6 +283,26 @@ impl Prepared {
         self.stratum[t] == self.stratum[c]
             && self.width.is_none_or(|w| (logit[t] - logit[c]).abs() <= w)
     }
+}
+
+/// An unsigned integer with the same order as the finite number `v`, with
+/// -0 and +0 equal (so equal scores tie and fall to row order).
+fn order_bits(v: f64) -> u64 {
+    let b = (v + 0.0).to_bits();
+    if b >> 63 == 1 {
+        !b
+    } else {
+        b | (1 << 63)
+    }
+}
+
+/// Rows sorted by (stratum, key, row). Sorting packed integer triples avoids
+/// chasing row indices during the sort, which dominates for a million rows.
+fn sorted_rows(rows: impl Iterator<Item = usize>, stratum: &[usize], key: &[f64]) -> Vec<usize> {
+    let mut packed: Vec<(usize, u64, usize)> =
+        rows.map(|r| (stratum[r], order_bits(key[r]), r)).collect();
+    packed.sort_unstable();
+    packed.into_iter().map(|p| p.2).collect()
 }
 
 /// Order of finite numbers in which -0 equals +0 (so equal scores tie and
@@ -364,11 +378,15 @@ type Assigned = Vec<Vec<(usize, f64)>>;
 
 /// Greedy nearest available (or, with reuse, each treated unit's k nearest).
 fn greedy(prep: &Prepared, input: &MatchInput, k: usize, reuse: bool) -> Result<Assigned> {
-    let mut order: Vec<usize> = (0..prep.treated_rows.len()).collect();
-    let tr = &prep.treated_rows;
-    order.sort_unstable_by(|&a, &b| {
-        cmp_finite(input.logit[tr[b]], input.logit[tr[a]]).then(tr[a].cmp(&tr[b]))
-    });
+    // Descending score, ties by row: sort (!key, position) ascending.
+    let mut packed: Vec<(u64, usize)> = prep
+        .treated_rows
+        .iter()
+        .enumerate()
+        .map(|(ti, &t)| (!order_bits(input.logit[t]), ti))
+        .collect();
+    packed.sort_unstable();
+    let order: Vec<usize> = packed.into_iter().map(|p| p.1).collect();
     if let Some(key) = input.distance.line_key() {
         let same_as_logit = key.len() == input.logit.len()
             && key
@@ -379,7 +397,15 @@ fn greedy(prep: &Prepared, input: &MatchInput, k: usize, reuse: bool) -> Result<
             && key.iter().all(|v| v.is_finite())
             && (prep.width.is_none() || same_as_logit)
         {
-            return Ok(greedy_line(prep, input, key, &order, k, reuse));
+            return Ok(greedy_line(
+                prep,
+                input,
+                key,
+                same_as_logit,
+                &order,
+                k,
+                reuse,
+            ));
         }
     }
     greedy_general(prep, input, &order, k, reuse)
@@ -394,18 +420,17 @@ fn greedy_line(
     prep: &Prepared,
     input: &MatchInput,
     key: &[f64],
+    same_as_logit: bool,
     order: &[usize],
     k: usize,
     reuse: bool,
 ) -> Assigned {
     // comparison rows sorted by (stratum, key, row)
-    let mut rows = prep.comp.clone();
-    rows.sort_unstable_by(|&a, &b| {
-        prep.stratum[a]
-            .cmp(&prep.stratum[b])
-            .then(cmp_finite(key[a], key[b]))
-            .then(a.cmp(&b))
-    });
+    let rows: std::borrow::Cow<[usize]> = if same_as_logit {
+        std::borrow::Cow::Borrowed(&prep.comp)
+    } else {
+        std::borrow::Cow::Owned(sorted_rows(prep.comp.iter().copied(), &prep.stratum, key))
+    };
     let mut b_val: Vec<f64> = Vec::new();
     let mut b_start: Vec<usize> = Vec::new();
     let mut b_stratum: Vec<usize> = Vec::new();
@@ -434,6 +459,7 @@ fn greedy_line(
     let mut head = b_start.clone();
     let mut right = NextAlive::new(nb);
     let mut left = PrevAlive::new(nb);
+    let mut cursor: Vec<usize> = s_first[1..].to_vec();
 
     let mut out: Assigned = vec![Vec::new(); prep.treated_rows.len()];
     let mut picked: Vec<(usize, usize, f64)> = Vec::with_capacity(k);
@@ -445,7 +471,18 @@ fn greedy_line(
             continue;
         }
         let x = key[t];
-        let pos = bs + b_val[bs..be].partition_point(|&v| v < x);
+        // Treated units come in descending score; when the key is the score
+        // the search position only moves down, so a cursor per stratum
+        // replaces a binary search.
+        let pos = if same_as_logit {
+            let c = &mut cursor[s];
+            while *c > bs && b_val[*c - 1] >= x {
+                *c -= 1;
+            }
+            *c
+        } else {
+            bs + b_val[bs..be].partition_point(|&v| v < x)
+        };
         let mut rb = right.find(pos);
         let mut r_ok = rb < be;
         let mut roff = if r_ok { head[rb] } else { 0 };

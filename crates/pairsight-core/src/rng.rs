@@ -61,7 +61,7 @@ impl Rng {
     pub fn normal(&mut self) -> f64 {
         let u1 = 1.0 - self.uniform(); // (0, 1]
         let u2 = self.uniform();
-        (-2.0 * u1.ln()).sqrt() * (std::f64::consts::TAU * u2).cos()
+        (-2.0 * libm::log(u1)).sqrt() * libm::cos(std::f64::consts::TAU * u2)
     }
 
     /// Bernoulli draw with probability p.

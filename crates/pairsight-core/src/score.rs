@@ -297,9 +297,9 @@ fn validate(x: ArrayView2<f64>, treated: &[bool], params: &LogitParams) -> Resul
 /// The logistic function, written to stay finite for large |eta|.
 pub fn sigmoid(eta: f64) -> f64 {
     if eta >= 0.0 {
-        1.0 / (1.0 + (-eta).exp())
+        1.0 / (1.0 + libm::exp(-eta))
     } else {
-        let e = eta.exp();
+        let e = libm::exp(eta);
         e / (1.0 + e)
     }
 }
@@ -307,9 +307,9 @@ pub fn sigmoid(eta: f64) -> f64 {
 /// log(1 + exp(eta)) without overflow.
 fn softplus(eta: f64) -> f64 {
     if eta > 0.0 {
-        eta + (-eta).exp().ln_1p()
+        eta + libm::log1p(libm::exp(-eta))
     } else {
-        eta.exp().ln_1p()
+        libm::log1p(libm::exp(eta))
     }
 }
 
@@ -525,7 +525,7 @@ fn penalized(d: &Design, y: &[f64], beta: &[f64], pen: Penalty) -> Option<(Pass,
         // Firth (1993): maximize l(beta) + 1/2 log|I(beta)|; the modified
         // score is X'(y - p + h (1/2 - p)) with h the diagonal of the hat
         // matrix W^1/2 X (X'WX)^-1 X' W^1/2 (Heinze & Schemper 2002, eq. 2).
-        let logdet: f64 = (0..q).map(|j| l[j * q + j].ln()).sum::<f64>() * 2.0;
+        let logdet: f64 = (0..q).map(|j| libm::log(l[j * q + j])).sum::<f64>() * 2.0;
         obj += 0.5 * logdet;
         let mut v = vec![0.0; q];
         let mut g = vec![0.0; q];
@@ -592,6 +592,12 @@ fn newton(d: &Design, y: &[f64], params: &LogitParams, pen: Penalty) -> Result<R
         max_step *= t;
         if max_step < params.tol {
             converged = true;
+            break;
+        }
+        // Under separation the coefficients grow without bound; once fitted
+        // probabilities sit at 0 or 1 more steps only waste passes.
+        if matches!(pen, Penalty::None) && iterations >= 8 && cur.eta.iter().any(|e| e.abs() > 30.0)
+        {
             break;
         }
     }
@@ -677,6 +683,20 @@ mod tests {
         for (a, b) in f.logit.iter().zip(&g.logit) {
             assert!((a - b).abs() < 1e-9);
         }
+    }
+
+    #[test]
+    fn a_full_set_of_level_indicators_drops_the_last_one() {
+        let mut r = Rng::new(3);
+        let n = 400;
+        let level: Vec<usize> = (0..n).map(|_| r.below(3)).collect();
+        let x = Array2::from_shape_fn((n, 3), |(i, j)| (level[i] == j) as u8 as f64);
+        let t: Vec<bool> = (0..n)
+            .map(|i| r.bernoulli(0.3 + 0.2 * level[i] as f64))
+            .collect();
+        let f = fit_logistic(x.view(), &t, &LogitParams::default()).unwrap();
+        assert_eq!(f.dropped_columns, vec![2]);
+        assert!(f.converged);
     }
 
     #[test]

@@ -390,7 +390,7 @@ pub fn e_value(rr: f64, ci_low: f64, ci_high: f64) -> Result<EValue> {
 /// E-values of a standardized mean difference d with interval, through the
 /// approximation RR = exp(0.91 d).
 pub fn e_value_smd(d: f64, ci_low: f64, ci_high: f64) -> Result<EValue> {
-    let f = |x: f64| (0.91 * x).exp();
+    let f = |x: f64| libm::exp(0.91 * x);
     let mut e = e_value(f(d), f(ci_low), f(ci_high))?;
     e.scale = "approximate risk ratio exp(0.91 d)".into();
     Ok(e)

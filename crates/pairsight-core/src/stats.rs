@@ -42,8 +42,8 @@ pub fn ln_gamma(x: f64) -> f64 {
     ];
     if x < 0.5 {
         // Reflection: Gamma(x) Gamma(1 - x) = pi / sin(pi x).
-        let s = (std::f64::consts::PI * x).sin().abs();
-        return std::f64::consts::PI.ln() - s.ln() - ln_gamma(1.0 - x);
+        let s = libm::sin(std::f64::consts::PI * x).abs();
+        return libm::log(std::f64::consts::PI) - libm::log(s) - ln_gamma(1.0 - x);
     }
     let x = x - 1.0;
     let mut a = C[0];
@@ -51,7 +51,7 @@ pub fn ln_gamma(x: f64) -> f64 {
     for (i, c) in C.iter().enumerate().skip(1) {
         a += c / (x + i as f64);
     }
-    LN_SQRT_2PI + (x + 0.5) * t.ln() - t + a.ln()
+    LN_SQRT_2PI + (x + 0.5) * libm::log(t) - t + libm::log(a)
 }
 
 /// Natural log of the beta function B(a, b). When one argument is large,
@@ -63,7 +63,7 @@ pub fn ln_beta(a: f64, b: f64) -> f64 {
     if big < 10.0 {
         return ln_gamma(a) + ln_gamma(b) - ln_gamma(a + b);
     }
-    let diff = -(big - 0.5) * (s / big).ln_1p() - s * (big + s).ln() + s + stirlerr(big)
+    let diff = -(big - 0.5) * libm::log1p(s / big) - s * libm::log(big + s) + s + stirlerr(big)
         - stirlerr(big + s);
     ln_gamma(s) + diff
 }
@@ -82,7 +82,7 @@ pub fn gamma_pq(a: f64, x: f64) -> (f64, f64) {
     if x.is_infinite() {
         return (1.0, 0.0);
     }
-    let front = (-x + a * x.ln() - ln_gamma(a)).exp();
+    let front = libm::exp(-x + a * libm::log(x) - ln_gamma(a));
     if x < a + 1.0 {
         let mut ap = a;
         let mut del = 1.0 / a;
@@ -190,9 +190,17 @@ fn beta_front(a: f64, b: f64, x: f64, y: f64) -> f64 {
         a * y * dbinom_raw(a, a + b - 1.0, x, y)
     } else {
         // ln x from y when x is near 1, where y = 1 - x carries the precision.
-        let lx = if x > 0.5 { (-y).ln_1p() } else { x.ln() };
-        let ly = if y > 0.5 { (-x).ln_1p() } else { y.ln() };
-        (a * lx + b * ly - ln_beta(a, b)).exp()
+        let lx = if x > 0.5 {
+            libm::log1p(-y)
+        } else {
+            libm::log(x)
+        };
+        let ly = if y > 0.5 {
+            libm::log1p(-x)
+        } else {
+            libm::log(y)
+        };
+        libm::exp(a * lx + b * ly - ln_beta(a, b))
     }
 }
 
@@ -244,7 +252,7 @@ pub fn norm_sf(x: f64) -> f64 {
 
 /// Standard normal density.
 pub fn norm_pdf(x: f64) -> f64 {
-    (-0.5 * x * x - LN_SQRT_2PI).exp()
+    libm::exp(-0.5 * x * x - LN_SQRT_2PI)
 }
 
 /// Standard normal quantile (Wichura 1988, AS 241, PPND16; about 16 digits).
@@ -289,7 +297,7 @@ pub fn norm_ppf(p: f64) -> f64 {
                 + 1.0);
     }
     let mut r = if q < 0.0 { p } else { 1.0 - p };
-    r = (-r.ln()).sqrt();
+    r = (-libm::log(r)).sqrt();
     let val = if r <= 5.0 {
         r -= 1.6;
         (((((((7.745_450_142_783_414e-4 * r + 2.272_384_498_926_918_4e-2) * r
@@ -377,11 +385,12 @@ pub fn t_cdf(t: f64, df: f64) -> f64 {
 
 /// Student t density.
 pub fn t_pdf(t: f64, df: f64) -> f64 {
-    (ln_gamma(0.5 * (df + 1.0))
-        - ln_gamma(0.5 * df)
-        - 0.5 * (df * std::f64::consts::PI).ln()
-        - 0.5 * (df + 1.0) * (t * t / df).ln_1p())
-    .exp()
+    libm::exp(
+        ln_gamma(0.5 * (df + 1.0))
+            - ln_gamma(0.5 * df)
+            - 0.5 * libm::log(df * std::f64::consts::PI)
+            - 0.5 * (df + 1.0) * libm::log1p(t * t / df),
+    )
 }
 
 /// Student t quantile: solves the upper tail t_sf(t) = min(p, 1 - p) by
@@ -498,7 +507,7 @@ fn stirlerr(n: f64) -> f64 {
     const S3: f64 = 1.0 / 1680.0;
     const S4: f64 = 1.0 / 1188.0;
     if n <= 15.0 {
-        return ln_gamma(n + 1.0) - (n + 0.5) * n.ln() + n - LN_SQRT_2PI;
+        return ln_gamma(n + 1.0) - (n + 0.5) * libm::log(n) + n - LN_SQRT_2PI;
     }
     let nn = n * n;
     if n > 500.0 {
@@ -530,7 +539,7 @@ fn bd0(x: f64, np: f64) -> f64 {
         }
         s
     } else {
-        x * (x / np).ln() + np - x
+        x * libm::log(x / np) + np - x
     }
 }
 
@@ -549,24 +558,24 @@ fn dbinom_raw(x: f64, n: f64, p: f64, q: f64) -> f64 {
         let lc = if p < 0.1 {
             -bd0(n, n * q) - n * p
         } else {
-            n * q.ln()
+            n * libm::log(q)
         };
-        return lc.exp();
+        return libm::exp(lc);
     }
     if x == n {
         let lc = if q < 0.1 {
             -bd0(n, n * p) - n * q
         } else {
-            n * p.ln()
+            n * libm::log(p)
         };
-        return lc.exp();
+        return libm::exp(lc);
     }
     if x < 0.0 || x > n {
         return 0.0;
     }
     let lc = stirlerr(n) - stirlerr(x) - stirlerr(n - x) - bd0(x, n * p) - bd0(n - x, n * q);
-    let lf = std::f64::consts::TAU.ln() + x.ln() + (-x / n).ln_1p();
-    (lc - 0.5 * lf).exp()
+    let lf = libm::log(std::f64::consts::TAU) + libm::log(x) + libm::log1p(-x / n);
+    libm::exp(lc - 0.5 * lf)
 }
 
 /// Binomial probability P(X = k) for X ~ Bin(n, p).
@@ -756,13 +765,13 @@ mod tests {
         let mut f = 1.0f64;
         for n in 1..30 {
             assert!(
-                (ln_gamma(n as f64) - f.ln()).abs() < 1e-12 * f.ln().max(1.0),
+                (ln_gamma(n as f64) - libm::log(f)).abs() < 1e-12 * libm::log(f).max(1.0),
                 "{n}"
             );
             f *= n as f64;
         }
         // Gamma(1/2) = sqrt(pi), a textbook identity.
-        assert!((ln_gamma(0.5) - 0.5 * std::f64::consts::PI.ln()).abs() < 1e-14);
+        assert!((ln_gamma(0.5) - 0.5 * libm::log(std::f64::consts::PI)).abs() < 1e-14);
     }
 
     #[test]
@@ -798,7 +807,7 @@ mod tests {
             }
         }
         // t with 1 df is Cauchy: quantile tan(pi (p - 1/2)).
-        let want = (std::f64::consts::PI * (0.9 - 0.5)).tan();
+        let want = libm::tan(std::f64::consts::PI * (0.9 - 0.5));
         assert!((t_ppf(0.9, 1.0) - want).abs() < 1e-10);
     }
 

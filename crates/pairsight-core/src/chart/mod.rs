@@ -162,7 +162,7 @@ pub(crate) fn nice_step(range: f64, target: usize) -> f64 {
         1.0
     };
     let raw = range / target.max(1) as f64;
-    let mag = 10f64.powf(raw.log10().floor());
+    let mag = libm::pow(10f64, libm::log10(raw).floor());
     let f = raw / mag;
     let nf = if f < 1.5 {
         1.0
@@ -190,7 +190,7 @@ pub(crate) fn ticks(lo: f64, hi: f64, step: f64) -> Vec<f64> {
 
 /// A tick label with as many decimals as the step needs.
 pub(crate) fn tick_label(v: f64, step: f64) -> String {
-    let decimals = (-(step.log10() + 1e-9).floor()).max(0.0) as usize;
+    let decimals = (-(libm::log10(step) + 1e-9).floor()).max(0.0) as usize;
     let s = format!("{:.*}", decimals, v);
     if s.trim_start_matches('-')
         .chars()

@@ -3,7 +3,10 @@
 //! "Efficient string matching", CACM 18(6):333-340), each mention read as
 //! affirmed or negated (see the negation module).
 
-use aho_corasick::{AhoCorasick, MatchKind};
+use std::borrow::Cow;
+use std::cell::OnceCell;
+
+use aho_corasick::{AhoCorasick, AhoCorasickKind, MatchKind};
 use serde::{Deserialize, Serialize};
 
 use super::negation::{find_cues, negated};
@@ -64,28 +67,85 @@ pub struct Highlight {
 
 /// A note lowercased with whitespace runs collapsed to one space, with the
 /// map back to the original bytes and the places where a clause ends.
-pub(crate) struct Normalized {
-    pub text: String,
-    /// `orig[b]`: byte offset in the original of normalized byte `b`.
+///
+/// An ASCII note whose only whitespace is single spaces is already in that
+/// form up to case; it is used as it is (the automata ignore ASCII case), so
+/// the common note is not copied.
+pub(crate) struct Normalized<'a> {
+    pub text: Cow<'a, str>,
+    /// `orig[b]`: byte offset in the original of normalized byte `b`; empty
+    /// when the map is the identity or was not asked for.
     orig: Vec<usize>,
+    identity: bool,
     orig_len: usize,
     /// Normalized offsets of sentence ends (`.` `!` `?` before a space or
     /// the end, `;`) and of line breaks.
     pub breaks: Vec<usize>,
-    word_starts: Vec<usize>,
+    /// Byte offsets where words start, found when first needed.
+    word_starts: OnceCell<Vec<usize>>,
 }
 
-impl Normalized {
-    pub(crate) fn new(text: &str) -> Self {
+impl<'a> Normalized<'a> {
+    pub(crate) fn new(text: &'a str) -> Self {
+        Self::build(text, true)
+    }
+
+    /// Without the map back to the original (enough for counting).
+    pub(crate) fn for_counting(text: &'a str) -> Self {
+        Self::build(text, false)
+    }
+
+    fn build(text: &'a str, keep_map: bool) -> Self {
+        let bytes = text.as_bytes();
+        let plain = text.is_ascii()
+            && !bytes
+                .iter()
+                .any(|&b| b.is_ascii_whitespace() && b != b' ' || b == 0x0b)
+            && !bytes.windows(2).any(|w| w == b"  ");
+        let (out, orig, breaks) = if plain {
+            (Cow::Borrowed(text), Vec::new(), Vec::new())
+        } else {
+            let (o, m, b) = Self::collapse(text, keep_map);
+            (Cow::Owned(o), m, b)
+        };
+        let mut breaks = breaks;
+        let ob = out.as_bytes();
+        for (k, &b) in ob.iter().enumerate() {
+            let ends = match b {
+                b';' | b'!' | b'?' => true,
+                b'.' => k + 1 == ob.len() || ob[k + 1] == b' ',
+                _ => false,
+            };
+            if ends {
+                breaks.push(k);
+            }
+        }
+        breaks.sort_unstable();
+        breaks.dedup();
+        Normalized {
+            text: out,
+            orig,
+            identity: plain,
+            orig_len: text.len(),
+            breaks,
+            word_starts: OnceCell::new(),
+        }
+    }
+
+    /// Lowercases and collapses whitespace; returns the text, the byte map
+    /// (when asked for) and the line breaks.
+    fn collapse(text: &str, keep_map: bool) -> (String, Vec<usize>, Vec<usize>) {
         let mut out = String::with_capacity(text.len());
-        let mut orig = Vec::with_capacity(text.len() + 1);
+        let mut orig = Vec::with_capacity(if keep_map { text.len() + 1 } else { 0 });
         let mut breaks = Vec::new();
         let mut in_space = false;
         for (i, c) in text.char_indices() {
             if c.is_whitespace() {
                 if !in_space {
                     out.push(' ');
-                    orig.push(i);
+                    if keep_map {
+                        orig.push(i);
+                    }
                     in_space = true;
                 }
                 if matches!(c, '\n' | '\r' | '\u{2028}' | '\u{2029}')
@@ -96,62 +156,47 @@ impl Normalized {
                 continue;
             }
             in_space = false;
+            let before = out.len();
             if c.is_ascii() {
                 out.push(c.to_ascii_lowercase());
-                orig.push(i);
             } else if matches!(c, '\u{2018}' | '\u{2019}') {
                 // Typographic apostrophes read as the plain one ("isn’t").
                 out.push('\'');
-                orig.push(i);
             } else {
-                for lc in c.to_lowercase() {
-                    let before = out.len();
-                    out.push(lc);
-                    orig.extend(std::iter::repeat_n(i, out.len() - before));
-                }
+                out.extend(c.to_lowercase());
+            }
+            if keep_map {
+                orig.extend(std::iter::repeat_n(i, out.len() - before));
             }
         }
-        let bytes = out.as_bytes();
-        for (k, &b) in bytes.iter().enumerate() {
-            let ends = match b {
-                b';' | b'!' | b'?' => true,
-                b'.' => k + 1 == bytes.len() || bytes[k + 1] == b' ',
-                _ => false,
-            };
-            if ends {
-                breaks.push(k);
-            }
-        }
-        breaks.sort_unstable();
-        breaks.dedup();
-        let mut word_starts = Vec::new();
-        for_each_word_run(&out, |s, _| word_starts.push(s));
-        Normalized {
-            text: out,
-            orig,
-            orig_len: text.len(),
-            breaks,
-            word_starts,
-        }
+        (out, orig, breaks)
     }
 
     /// Original byte offset of normalized offset `k` (`k` may be the end).
     pub(crate) fn original(&self, k: usize) -> usize {
-        self.orig.get(k).copied().unwrap_or(self.orig_len)
+        if self.identity {
+            k.min(self.orig_len)
+        } else {
+            self.orig.get(k).copied().unwrap_or(self.orig_len)
+        }
     }
 
     /// Number of words starting in `a..b`.
     pub(crate) fn words_between(&self, a: usize, b: usize) -> usize {
-        let lo = self.word_starts.partition_point(|&s| s < a);
-        let hi = self.word_starts.partition_point(|&s| s < b);
+        let starts = self.word_starts.get_or_init(|| {
+            let mut v = Vec::new();
+            for_each_word_run(&self.text, |s, _| v.push(s));
+            v
+        });
+        let lo = starts.partition_point(|&s| s < a);
+        let hi = starts.partition_point(|&s| s < b);
         hi.saturating_sub(lo)
     }
 }
 
 /// Lowercase and collapse whitespace in a pattern the way notes are.
 fn normalize_pattern(term: &str) -> String {
-    let n = Normalized::new(term.trim());
-    n.text
+    Normalized::collapse(term.trim(), false).0
 }
 
 fn starts_with_word_char(s: &str) -> bool {
@@ -289,6 +334,8 @@ impl ConceptMatcher {
             Some(
                 AhoCorasick::builder()
                     .match_kind(MatchKind::Standard)
+                    .ascii_case_insensitive(true)
+                    .kind(Some(AhoCorasickKind::DFA))
                     .build(&patterns)
                     .map_err(|e| {
                         Error::compute(format!(
@@ -313,7 +360,7 @@ impl ConceptMatcher {
 
     /// Mentions in a normalized note, per concept leftmost-longest and not
     /// overlapping; ordered by start, then concept.
-    pub(crate) fn mentions(&self, norm: &Normalized) -> Vec<Mention> {
+    pub(crate) fn mentions(&self, norm: &Normalized<'_>) -> Vec<Mention> {
         let Some(ac) = &self.ac else {
             return Vec::new();
         };
@@ -359,7 +406,7 @@ impl ConceptMatcher {
         if self.ac.is_none() || note.is_empty() {
             return counts;
         }
-        let norm = Normalized::new(note);
+        let norm = Normalized::for_counting(note);
         for m in self.mentions(&norm) {
             if m.negated {
                 counts[m.concept].1 += 1;

@@ -3,36 +3,58 @@
 //! validation study of sophisticated approaches to lexical diversity
 //! assessment", Behavior Research Methods 42(2):381-392).
 
-use std::collections::HashSet;
-
 /// The factor threshold McCarthy & Jarvis (2010) recommend for MTLD.
 pub const MTLD_THRESHOLD: f64 = 0.72;
+
+use super::tokens::FastMap;
+
+/// Each word as a small integer (first-seen order) and the number of
+/// distinct words, so the passes below compare integers, not strings.
+fn word_ids<S: AsRef<str>>(words: &[S]) -> (Vec<u32>, usize) {
+    let mut map: FastMap<&str, u32> = FastMap::default();
+    let ids = words
+        .iter()
+        .map(|w| {
+            let next = map.len() as u32;
+            *map.entry(w.as_ref()).or_insert(next)
+        })
+        .collect();
+    (ids, map.len())
+}
 
 /// Distinct words over words; 0 for no words.
 pub fn type_token_ratio<S: AsRef<str>>(words: &[S]) -> f64 {
     if words.is_empty() {
         return 0.0;
     }
-    let types: HashSet<&str> = words.iter().map(AsRef::as_ref).collect();
-    types.len() as f64 / words.len() as f64
+    let (_, types) = word_ids(words);
+    types as f64 / words.len() as f64
 }
 
-/// Factors of one pass of MTLD over `words` in the given order: walk the
+/// Factors of one pass of MTLD over `ids` in the given order: walk the
 /// words, and each time the running type-token ratio of the current stretch
 /// falls to `threshold` or below, count one factor and start a new stretch;
 /// a leftover stretch counts as the partial factor (1 - ttr) / (1 - threshold).
-fn mtld_factors<'a>(words: impl Iterator<Item = &'a str>, threshold: f64) -> f64 {
-    let mut types: HashSet<&str> = HashSet::new();
+fn mtld_factors(ids: impl Iterator<Item = u32>, types: usize, threshold: f64) -> f64 {
+    // seen[id] == stretch number when the word already occurred in this stretch.
+    let mut seen = vec![0u32; types];
+    let mut stretch = 1u32;
+    let mut distinct = 0usize;
     let mut tokens = 0usize;
     let mut factors = 0.0;
     let mut ttr = 1.0;
-    for w in words {
+    for id in ids {
         tokens += 1;
-        types.insert(w);
-        ttr = types.len() as f64 / tokens as f64;
+        let s = &mut seen[id as usize];
+        if *s != stretch {
+            *s = stretch;
+            distinct += 1;
+        }
+        ttr = distinct as f64 / tokens as f64;
         if ttr <= threshold {
             factors += 1.0;
-            types.clear();
+            stretch += 1;
+            distinct = 0;
             tokens = 0;
         }
     }
@@ -48,19 +70,82 @@ fn mtld_factors<'a>(words: impl Iterator<Item = &'a str>, threshold: f64) -> f64
 /// distinct) counts one factor, so the value is the number of words. 0 for no
 /// words. `threshold` must lie in (0, 1).
 pub fn mtld_with<S: AsRef<str>>(words: &[S], threshold: f64) -> f64 {
-    if words.is_empty() {
+    let (ids, types) = word_ids(words);
+    mtld_of_ids(&ids, types, threshold)
+}
+
+fn mtld_of_ids(ids: &[u32], types: usize, threshold: f64) -> f64 {
+    if ids.is_empty() {
         return 0.0;
     }
-    let n = words.len() as f64;
+    let n = ids.len() as f64;
     let pass = |f: f64| n / if f > 0.0 { f } else { 1.0 };
-    let fwd = mtld_factors(words.iter().map(AsRef::as_ref), threshold);
-    let bwd = mtld_factors(words.iter().rev().map(AsRef::as_ref), threshold);
+    let fwd = mtld_factors(ids.iter().copied(), types, threshold);
+    let bwd = mtld_factors(ids.iter().rev().copied(), types, threshold);
     (pass(fwd) + pass(bwd)) / 2.0
 }
 
 /// MTLD at the recommended threshold 0.72.
 pub fn mtld<S: AsRef<str>>(words: &[S]) -> f64 {
     mtld_with(words, MTLD_THRESHOLD)
+}
+
+/// Type-token ratio, MTLD (threshold 0.72) and syllable count of many
+/// notes, one after another: one word-to-number map for the whole corpus
+/// saves building a map per note, and each distinct word's syllables are
+/// counted once.
+#[derive(Default)]
+pub(crate) struct Diversity {
+    ids: FastMap<Box<str>, u32>,
+    syllables: Vec<u32>,
+    local: Vec<u32>,
+    note_ids: Vec<u32>,
+    stamp: Vec<u32>,
+    note: u32,
+}
+
+impl Diversity {
+    /// (type-token ratio, MTLD, syllables) of one note's words.
+    pub(crate) fn measure(&mut self, words: &[&str]) -> (f64, f64, usize) {
+        if words.is_empty() {
+            return (0.0, 0.0, 0);
+        }
+        let mut syllables = 0usize;
+        // Renumber this note's words 0.. in first-seen order.
+        self.note = self.note.wrapping_add(1);
+        if self.note == 0 {
+            self.stamp.fill(0);
+            self.note = 1;
+        }
+        self.note_ids.clear();
+        let mut types = 0u32;
+        for w in words {
+            let global = match self.ids.get(*w) {
+                Some(&g) => g,
+                None => {
+                    let g = self.ids.len() as u32;
+                    self.ids.insert((*w).into(), g);
+                    self.stamp.push(0);
+                    self.local.push(0);
+                    self.syllables.push(super::readability::syllables(w) as u32);
+                    g
+                }
+            } as usize;
+            syllables += self.syllables[global] as usize;
+            if self.stamp[global] != self.note {
+                self.stamp[global] = self.note;
+                self.local[global] = types;
+                types += 1;
+            }
+            self.note_ids.push(self.local[global]);
+        }
+        let types = types as usize;
+        (
+            types as f64 / words.len() as f64,
+            mtld_of_ids(&self.note_ids, types, MTLD_THRESHOLD),
+            syllables,
+        )
+    }
 }
 
 #[cfg(test)]

@@ -3,7 +3,8 @@
 //! Harshman 1990, JASIS 41(6):391-407), computed by randomized subspace
 //! iteration (Halko, Martinsson & Tropp 2011, "Finding structure with
 //! randomness", SIAM Review 53(2):217-288, Algorithm 4.4 with the final steps
-//! of Algorithm 5.1). Small dense QR and SVD steps use nalgebra.
+//! of Algorithm 5.1, the final small SVD taken through the Gram matrix of the
+//! projected block). Small dense QR and eigen steps use nalgebra.
 
 use nalgebra::DMatrix;
 use ndarray::Array2;
@@ -30,12 +31,29 @@ pub struct Latent {
     pub singular_values: Vec<f64>,
 }
 
+/// Dense row-major products with a sparse matrix, in the element type of
+/// the block: single precision during the power iterations (half the memory
+/// traffic, twice the SIMD width), double precision for the final step.
+trait Elem: Copy + Default + std::ops::Mul<Output = Self> + std::ops::AddAssign {
+    fn of(x: f64) -> Self;
+}
+impl Elem for f32 {
+    fn of(x: f64) -> Self {
+        x as f32
+    }
+}
+impl Elem for f64 {
+    fn of(x: f64) -> Self {
+        x
+    }
+}
+
 /// y = A z, with z (cols x l) and y (rows x l) dense row-major.
-fn mul(a: &SparseRows, z: &[f64], l: usize, y: &mut [f64]) {
+fn mul<T: Elem>(indptr: &[usize], indices: &[u32], values: &[T], z: &[T], l: usize, y: &mut [T]) {
     for (i, yi) in y.chunks_exact_mut(l).enumerate() {
-        yi.fill(0.0);
-        let (c, v) = a.row(i);
-        for (&j, &x) in c.iter().zip(v) {
+        yi.fill(T::default());
+        let (a, b) = (indptr[i], indptr[i + 1]);
+        for (&j, &x) in indices[a..b].iter().zip(&values[a..b]) {
             let zj = &z[j as usize * l..j as usize * l + l];
             for (t, &s) in yi.iter_mut().zip(zj) {
                 *t += x * s;
@@ -44,52 +62,136 @@ fn mul(a: &SparseRows, z: &[f64], l: usize, y: &mut [f64]) {
     }
 }
 
-/// z = A' y, with y (rows x l) and z (cols x l) dense row-major.
-fn mul_t(a: &SparseRows, y: &[f64], l: usize, z: &mut [f64]) {
-    z.fill(0.0);
-    for (i, yi) in y.chunks_exact(l).enumerate() {
-        let (c, v) = a.row(i);
-        for (&j, &x) in c.iter().zip(v) {
-            let zj = &mut z[j as usize * l..j as usize * l + l];
-            for (t, &s) in zj.iter_mut().zip(yi) {
-                *t += x * s;
+/// Orthonormal basis of the columns of a row-major r x l block, in place:
+/// Cholesky QR (Q = Z R^-1 with R'R = Z'Z, Gram matrix accumulated in double
+/// precision; Stathopoulos & Wu 2002, SIAM J Sci Comput 23(6):2165-2182),
+/// falling back to Householder QR when the Gram matrix is too ill-conditioned
+/// for a safe Cholesky factor (for example a rank-deficient block).
+fn orthonormalize<T: Elem + Into<f64>>(buf: &mut [T], r: usize, l: usize) {
+    let mut g = DMatrix::<f64>::zeros(l, l);
+    let mut row = vec![0.0f64; l];
+    for chunk in buf.chunks_exact(l) {
+        for (d, &x) in row.iter_mut().zip(chunk) {
+            *d = x.into();
+        }
+        for a in 0..l {
+            let ra = row[a];
+            if ra != 0.0 {
+                for b in a..l {
+                    g[(a, b)] += ra * row[b];
+                }
+            }
+        }
+    }
+    for a in 0..l {
+        for b in 0..a {
+            g[(a, b)] = g[(b, a)];
+        }
+    }
+    let max_diag = (0..l).map(|a| g[(a, a)]).fold(0.0, f64::max);
+    let chol = nalgebra::Cholesky::new(g).map(|c| c.l());
+    let ok = chol.as_ref().is_some_and(|lower| {
+        max_diag > 0.0 && (0..l).all(|a| lower[(a, a)] * lower[(a, a)] > 1e-10 * max_diag)
+    });
+    match chol {
+        Some(lower) if ok => {
+            // Each row q solves L q' = z' (forward substitution).
+            for chunk in buf.chunks_exact_mut(l) {
+                for (d, &x) in row.iter_mut().zip(chunk.iter()) {
+                    *d = x.into();
+                }
+                for j in 0..l {
+                    let mut t = row[j];
+                    for i in 0..j {
+                        t -= lower[(j, i)] * row[i];
+                    }
+                    row[j] = t / lower[(j, j)];
+                }
+                for (d, &x) in chunk.iter_mut().zip(&row) {
+                    *d = T::of(x);
+                }
+            }
+        }
+        _ => {
+            let m = DMatrix::from_fn(r, l, |i, j| buf[i * l + j].into());
+            let q = m.qr().q();
+            for i in 0..r {
+                for j in 0..l {
+                    buf[i * l + j] = T::of(q[(i, j)]);
+                }
             }
         }
     }
 }
 
-/// Orthonormal basis of the columns of a row-major r x l buffer, in place.
-fn orthonormalize(buf: &mut [f64], r: usize, l: usize) {
-    let q = DMatrix::from_row_slice(r, l, buf).qr().q();
-    for i in 0..r {
-        for j in 0..l {
-            buf[i * l + j] = q[(i, j)];
+/// The transpose of `a`, so that products with A' read rows too.
+fn transpose(a: &SparseRows) -> SparseRows {
+    let mut indptr = vec![0usize; a.n_cols + 1];
+    for &c in &a.indices {
+        indptr[c as usize + 1] += 1;
+    }
+    for k in 0..a.n_cols {
+        indptr[k + 1] += indptr[k];
+    }
+    let mut next = indptr.clone();
+    let mut indices = vec![0u32; a.indices.len()];
+    let mut values = vec![0.0; a.values.len()];
+    for i in 0..a.n_rows() {
+        let (c, v) = a.row(i);
+        for (&k, &x) in c.iter().zip(v) {
+            let p = next[k as usize];
+            indices[p] = i as u32;
+            values[p] = x;
+            next[k as usize] += 1;
         }
+    }
+    SparseRows {
+        n_cols: a.n_rows(),
+        indptr,
+        indices,
+        values,
     }
 }
 
-/// Singular values and right singular vectors (as columns, l x l) of a tall
-/// row-major r x l buffer, through its QR factor R (so only an l x l SVD is
-/// needed).
-fn small_svd(buf: &[f64], r: usize, l: usize) -> Result<(Vec<f64>, DMatrix<f64>, DMatrix<f64>)> {
-    let rr = DMatrix::from_row_slice(r, l, buf).qr().r();
-    let svd = rr.try_svd(true, true, f64::EPSILON, 0).ok_or_else(|| {
-        Error::compute("the latent step's SVD did not converge; try fewer latent dimensions")
+/// Eigen-decomposition of the l x l Gram matrix B'B of a tall row-major
+/// r x l buffer B: singular values of B (largest first) and its right
+/// singular vectors as columns. Squaring costs relative accuracy of about
+/// machine epsilon times (s_1 / s_j)^2, far below what latent features need.
+fn gram_svd(buf: &[f64], l: usize) -> Result<(Vec<f64>, DMatrix<f64>)> {
+    let mut g = DMatrix::<f64>::zeros(l, l);
+    for row in buf.chunks_exact(l) {
+        for a in 0..l {
+            let ra = row[a];
+            if ra == 0.0 {
+                continue;
+            }
+            for b in a..l {
+                g[(a, b)] += ra * row[b];
+            }
+        }
+    }
+    for a in 0..l {
+        for b in 0..a {
+            g[(a, b)] = g[(b, a)];
+        }
+    }
+    let eig = nalgebra::SymmetricEigen::try_new(g, f64::EPSILON, 0).ok_or_else(|| {
+        Error::compute(
+            "the latent step's eigen-decomposition did not converge; try fewer latent dimensions",
+        )
     })?;
-    let (Some(u), Some(vt)) = (svd.u, svd.v_t) else {
-        return Err(Error::compute("the latent step's SVD gave no vectors"));
-    };
-    // nalgebra returns singular values unsorted from try_svd; sort largest first.
-    let mut order: Vec<usize> = (0..svd.singular_values.len()).collect();
+    let mut order: Vec<usize> = (0..l).collect();
     order.sort_by(|&a, &b| {
-        svd.singular_values[b]
-            .total_cmp(&svd.singular_values[a])
+        eig.eigenvalues[b]
+            .total_cmp(&eig.eigenvalues[a])
             .then(a.cmp(&b))
     });
-    let s: Vec<f64> = order.iter().map(|&k| svd.singular_values[k]).collect();
-    let u = DMatrix::from_fn(u.nrows(), order.len(), |i, j| u[(i, order[j])]);
-    let v = DMatrix::from_fn(vt.ncols(), order.len(), |i, j| vt[(order[j], i)]);
-    Ok((s, u, v))
+    let s = order
+        .iter()
+        .map(|&k| eig.eigenvalues[k].max(0.0).sqrt())
+        .collect();
+    let v = DMatrix::from_fn(l, l, |i, j| eig.eigenvectors[(i, order[j])]);
+    Ok((s, v))
 }
 
 /// Truncated SVD of `a` to `k` dimensions (fewer when the matrix has fewer
@@ -114,18 +216,38 @@ pub fn truncated_svd(a: &SparseRows, k: usize, seed: u64) -> Result<Latent> {
     let mut rng = Rng::new(seed);
     let mut scores = Array2::<f64>::zeros((n, k));
     let sv: Vec<f64>;
+    let at = transpose(a);
+    let a32: Vec<f32> = a.values.iter().map(|&x| x as f32).collect();
+    let at32: Vec<f32> = at.values.iter().map(|&x| x as f32).collect();
+    // Power iterations in single precision on the smaller side; the result
+    // is re-orthonormalized in double precision before the final step.
+    let (side, other) = if m <= n { (m, n) } else { (n, m) };
+    let (first, second) = if m <= n {
+        (
+            (&a.indptr, &a.indices, &a32),
+            (&at.indptr, &at.indices, &at32),
+        )
+    } else {
+        (
+            (&at.indptr, &at.indices, &at32),
+            (&a.indptr, &a.indices, &a32),
+        )
+    };
+    let mut q: Vec<f32> = (0..side * l).map(|_| rng.normal() as f32).collect();
+    let mut tmp = vec![0.0f32; other * l];
+    for _ in 0..=POWER_ITERATIONS {
+        mul(first.0, first.1, first.2, &q, l, &mut tmp);
+        mul(second.0, second.1, second.2, &tmp, l, &mut q);
+        orthonormalize(&mut q, side, l);
+    }
+    let mut q: Vec<f64> = q.into_iter().map(f64::from).collect();
+    orthonormalize(&mut q, side, l);
+    let mut y = vec![0.0f64; other * l];
     if m <= n {
-        // Iterate on the column side: Q spans the top right singular vectors.
-        let mut q: Vec<f64> = (0..m * l).map(|_| rng.normal()).collect();
-        let mut y = vec![0.0; n * l];
-        for _ in 0..=POWER_ITERATIONS {
-            mul(a, &q, l, &mut y);
-            mul_t(a, &y, l, &mut q);
-            orthonormalize(&mut q, m, l);
-        }
-        mul(a, &q, l, &mut y);
-        // A Q = Qy R and R = U S W', so U S = A Q W.
-        let (s, _u, w) = small_svd(&y, n, l)?;
+        // Q spans the top right singular vectors: A Q = U S W', so
+        // U S = A Q W (Rayleigh-Ritz on the subspace).
+        mul(&a.indptr, &a.indices, &a.values, &q, l, &mut y);
+        let (s, w) = gram_svd(&y, l)?;
         for i in 0..n {
             for c in 0..k {
                 let mut t = 0.0;
@@ -137,17 +259,10 @@ pub fn truncated_svd(a: &SparseRows, k: usize, seed: u64) -> Result<Latent> {
         }
         sv = s;
     } else {
-        // Iterate on the row side: Q spans the top left singular vectors.
-        let mut q: Vec<f64> = (0..n * l).map(|_| rng.normal()).collect();
-        let mut z = vec![0.0; m * l];
-        for _ in 0..=POWER_ITERATIONS {
-            mul_t(a, &q, l, &mut z);
-            mul(a, &z, l, &mut q);
-            orthonormalize(&mut q, n, l);
-        }
-        mul_t(a, &q, l, &mut z);
-        // A' Q = Qz R and R = U S W', so A ~ Q (A' Q)' = (Q W) S (Qz U)'.
-        let (s, _u, w) = small_svd(&z, m, l)?;
+        // Q spans the top left singular vectors: A' Q = V S W', so
+        // A ~ Q Q' A = (Q W) S V', and U S = Q W S.
+        mul(&at.indptr, &at.indices, &at.values, &q, l, &mut y);
+        let (s, w) = gram_svd(&y, l)?;
         for i in 0..n {
             for c in 0..k {
                 let mut t = 0.0;
@@ -188,9 +303,13 @@ pub fn truncated_svd(a: &SparseRows, k: usize, seed: u64) -> Result<Latent> {
     })
 }
 
-/// 1 minus the cosine similarity of latent rows `i` and `j`; 1 when either
-/// row is zero or out of range. Clamped to [0, 2] against rounding.
+/// 1 minus the cosine similarity of latent rows `i` and `j`: 0 when
+/// `i == j`, 1 when either row is zero or out of range. Clamped to [0, 2]
+/// against rounding.
 pub fn latent_cosine_distance(latent: &Array2<f64>, i: usize, j: usize) -> f64 {
+    if i == j {
+        return 0.0;
+    }
     if i >= latent.nrows() || j >= latent.nrows() {
         return 1.0;
     }

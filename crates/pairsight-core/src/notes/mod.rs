@@ -184,6 +184,7 @@ pub fn analyze<S: AsRef<str>>(
     let matcher = ConceptMatcher::new(concepts)?;
     let n = notes.len();
     let mut counter = tokens::TermCounter::new(options);
+    let mut diversity = diversity::Diversity::default();
     let mut base = Array2::<f64>::zeros((n, BASE_FEATURES.len()));
     let mut concept_counts = Array2::<f64>::zeros((n, 2 * concepts.len()));
     for (i, note) in notes.iter().enumerate() {
@@ -192,17 +193,18 @@ pub fn analyze<S: AsRef<str>>(
         let unigrams = counter.add(&lower);
         let spans = tokens::words(&lower);
         let word_list: Vec<&str> = spans.iter().map(|&(s, e)| &lower[s..e]).collect();
+        let (ttr, mtld, syllables) = diversity.measure(&word_list);
         let tc = TextCounts {
             words: spans.len(),
             sentences: sentences(&lower),
-            syllables: word_list.iter().map(|w| syllables(w)).sum(),
+            syllables,
         };
         base[[i, 0]] = unigrams as f64;
         base[[i, 1]] = tc.sentences as f64;
         base[[i, 2]] = flesch_reading_ease(&tc);
         base[[i, 3]] = flesch_kincaid_grade(&tc);
-        base[[i, 4]] = type_token_ratio(&word_list);
-        base[[i, 5]] = mtld(&word_list);
+        base[[i, 4]] = ttr;
+        base[[i, 5]] = mtld;
         if !concepts.is_empty() {
             for (c, (aff, neg)) in matcher.count(note).into_iter().enumerate() {
                 concept_counts[[i, 2 * c]] = aff as f64;

@@ -8,7 +8,7 @@
 
 use std::sync::OnceLock;
 
-use aho_corasick::{AhoCorasick, MatchKind};
+use aho_corasick::{AhoCorasick, AhoCorasickKind, MatchKind};
 
 use super::concepts::{boundary_matches, select_leftmost_longest, Normalized};
 
@@ -135,6 +135,8 @@ fn cue_set() -> Option<&'static CueSet> {
     SET.get_or_init(|| {
         let ac = AhoCorasick::builder()
             .match_kind(MatchKind::Standard)
+            .ascii_case_insensitive(true)
+            .kind(Some(AhoCorasickKind::DFA))
             .build(CUES.iter().map(|c| c.0))
             .ok()?;
         Some(CueSet {
@@ -147,7 +149,7 @@ fn cue_set() -> Option<&'static CueSet> {
 
 /// The cues of a normalized note, leftmost-longest and not overlapping, so
 /// that "not ruled out" wins over "ruled out" and "no evidence of" over "no".
-pub(crate) fn find_cues(norm: &Normalized) -> Vec<Cue> {
+pub(crate) fn find_cues(norm: &Normalized<'_>) -> Vec<Cue> {
     let Some(set) = cue_set() else {
         return Vec::new();
     };
@@ -166,7 +168,7 @@ pub(crate) fn find_cues(norm: &Normalized) -> Vec<Cue> {
 /// concept mention (`all_mentions`, of every concept) are part of a concept's
 /// own wording ("no fixed abode") and are ignored.
 pub(crate) fn negated(
-    norm: &Normalized,
+    norm: &Normalized<'_>,
     cues: &[Cue],
     all_mentions: &[(usize, usize)],
     mentions: &[(usize, usize)],

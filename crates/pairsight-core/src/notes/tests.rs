@@ -278,3 +278,36 @@ fn options_deserialize_with_defaults() {
     let c: Concept = toml::from_str("name = \"lives_alone\"\nterms = [\"lives alone\"]").unwrap();
     assert!(c.negation);
 }
+
+#[test]
+fn corpus_diversity_equals_per_note_diversity() {
+    let notes = [
+        "Lives alone, lives alone; the the the cat. Don't fall!",
+        "",
+        "a a a b b c Lives ALONE lives",
+        "Unique words only here",
+        "Lives alone, lives alone; the the the cat. Don't fall!",
+    ];
+    let f = analyze(
+        &notes,
+        &[],
+        &NoteOptions {
+            latent_dims: 0,
+            ..Default::default()
+        },
+    )
+    .unwrap();
+    let (ct, cm) = (
+        f.column("note.ttr").unwrap(),
+        f.column("note.mtld").unwrap(),
+    );
+    for (i, n) in notes.iter().enumerate() {
+        let lower = n.to_lowercase();
+        let w: Vec<&str> = super::tokens::words(&lower)
+            .into_iter()
+            .map(|(s, e)| &lower[s..e])
+            .collect();
+        assert_eq!(f.values[[i, ct]], type_token_ratio(&w), "note {i}");
+        assert_eq!(f.values[[i, cm]], mtld(&w), "note {i}");
+    }
+}

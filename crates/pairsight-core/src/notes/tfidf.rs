@@ -72,7 +72,7 @@ impl SparseRows {
 
 /// Smoothed inverse document frequency, ln((1 + n) / (1 + df)) + 1.
 pub fn smooth_idf(n_docs: usize, df: usize) -> f64 {
-    ((1.0 + n_docs as f64) / (1.0 + df as f64)).ln() + 1.0
+    libm::log((1.0 + n_docs as f64) / (1.0 + df as f64)) + 1.0
 }
 
 /// TF-IDF rows from raw counts (columns already sorted per row). Returns the
@@ -115,10 +115,14 @@ pub(crate) fn tfidf(counts: &SparseRows) -> (SparseRows, Vec<f64>) {
 
 /// Note-cosine distance: 1 minus the cosine similarity of TF-IDF rows `i`
 /// and `j`. Rows are unit length, so the similarity is their dot product.
-/// A note without terms (zero row) is at distance 1 from every note,
-/// itself included; out-of-range rows count as empty. The result is clamped
-/// to [0, 2] against rounding.
+/// A note is at distance 0 from itself; a note without terms (zero row) is
+/// at distance 1 from every other note, as scikit-learn's `cosine_distances`
+/// has it; out-of-range rows count as empty. The result is clamped to
+/// [0, 2] against rounding.
 pub fn cosine_distance(tfidf: &SparseRows, i: usize, j: usize) -> f64 {
+    if i == j {
+        return 0.0;
+    }
     let (ci, _) = tfidf.row(i);
     let (cj, _) = tfidf.row(j);
     if ci.is_empty() || cj.is_empty() {
@@ -141,14 +145,15 @@ mod tests {
             values: vec![1.0, 1.0, 1.0],
         };
         let (t, idf) = tfidf(&counts);
-        assert!((idf[0] - ((4.0f64 / 3.0).ln() + 1.0)).abs() < 1e-15);
-        assert!((idf[1] - ((4.0f64 / 2.0).ln() + 1.0)).abs() < 1e-15);
+        assert!((idf[0] - (libm::log(4.0f64 / 3.0) + 1.0)).abs() < 1e-15);
+        assert!((idf[1] - (libm::log(4.0f64 / 2.0) + 1.0)).abs() < 1e-15);
         let r0: f64 = t.row(0).1.iter().map(|x| x * x).sum();
         assert!((r0 - 1.0).abs() < 1e-15);
         assert_eq!(t.row(1).1, &[1.0]);
         assert_eq!(t.row(2).1.len(), 0);
         assert_eq!(cosine_distance(&t, 1, 1), 0.0);
-        assert_eq!(cosine_distance(&t, 2, 2), 1.0);
+        assert_eq!(cosine_distance(&t, 2, 2), 0.0);
+        assert_eq!(cosine_distance(&t, 1, 2), 1.0);
         let d = cosine_distance(&t, 0, 1);
         assert!((d - (1.0 - idf[0] / (idf[0].powi(2) + idf[1].powi(2)).sqrt())).abs() < 1e-15);
     }
