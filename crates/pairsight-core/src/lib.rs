@@ -26,6 +26,8 @@ pub mod matching;
 pub mod model;
 pub mod notes;
 pub mod output;
+pub mod packet;
+pub mod report;
 pub mod review;
 pub mod rng;
 pub mod run;

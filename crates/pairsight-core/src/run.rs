@@ -200,6 +200,23 @@ impl Analysis {
         })
     }
 
+    /// `features.csv`: `id` and every note feature (`note.*`, `concept.*`)
+    /// for every row used; `None` when the study has no notes column.
+    pub fn features_csv(&self) -> Result<Option<String>> {
+        let x = &self.cohort.extras;
+        if self.notes.is_none() {
+            return Ok(None);
+        }
+        let mut header = vec!["id"];
+        header.extend(x.names.iter().map(String::as_str));
+        let rows = self.cohort.ids.iter().zip(x.values.rows()).map(|(id, r)| {
+            let mut row = vec![output::safe_cell(id)];
+            row.extend(r.iter().map(|&v| output::num(v)));
+            row
+        });
+        output::csv_text(&header, rows).map(Some)
+    }
+
     /// Run every design of the study, in order.
     pub fn run_all(&self) -> Result<Vec<DesignRun>> {
         self.study.designs.iter().map(|d| self.run(d)).collect()
@@ -278,6 +295,21 @@ impl Analysis {
             term_shift,
             summary,
         })
+    }
+
+    /// A design's own distance (the one its matching used) between given
+    /// (treated, comparison) pairs of rows used, e.g. for pairs another
+    /// design matched, so reviewers' ratings can be set against it.
+    pub fn pair_distances(&self, run: &DesignRun, pairs: &[(usize, usize)]) -> Result<Vec<f64>> {
+        let n = self.cohort.len();
+        if let Some(&(t, c)) = pairs.iter().find(|&&(t, c)| t >= n || c >= n) {
+            return Err(Error::param(
+                "pairs",
+                format!("rows {t} and {c}: the cohort has {n} rows used"),
+            ));
+        }
+        let d = self.distance(&run.design, &run.fit)?;
+        Ok(pairs.iter().map(|&(t, c)| d.distance(t, c)).collect())
     }
 
     fn note_distance(&self, design: &Design) -> Result<Box<dyn PairDistance + '_>> {

@@ -37,7 +37,9 @@ mod love;
 mod overlap;
 mod sensitivity;
 
-pub use love::{draw_love, love_height_hint, love_svg, LoveDesign, LoveInput, LoveTerm, TermOrder};
+pub use love::{
+    draw_love, love_height_hint, love_svg, LoveDesign, LoveInput, LoveTerm, TermOrder, MAX_DESIGNS,
+};
 pub use overlap::{draw_overlap, overlap_svg, OverlapInput, OverlapPanel};
 pub use sensitivity::{draw_sensitivity, sensitivity_svg, SensitivityInput};
 
