@@ -631,3 +631,178 @@ fn every_corpus_case_gives_its_documented_outcome() {
         failures.join("\n")
     );
 }
+
+/// Run `pairsight` with arguments; the output, with no panic allowed.
+fn pairsight(args: &[&std::ffi::OsStr]) -> std::process::Output {
+    let o = Command::new(env!("CARGO_BIN_EXE_pairsight"))
+        .args(args)
+        .env("RUST_BACKTRACE", "1")
+        .output()
+        .expect("the pairsight binary runs");
+    let err = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        !err.contains("panicked") && !err.contains("stack backtrace"),
+        "a panic reached the user:\n{err}"
+    );
+    assert!(o.status.success(), "exit {:?}: {err}", o.status.code());
+    o
+}
+
+/// The cells of a CSV file, header first.
+fn csv_rows(path: &Path) -> Vec<Vec<String>> {
+    csv::ReaderBuilder::new()
+        .has_headers(false)
+        .from_path(path)
+        .expect("open CSV")
+        .records()
+        .map(|r| {
+            r.expect("a CSV record")
+                .iter()
+                .map(str::to_string)
+                .collect()
+        })
+        .collect()
+}
+
+/// The hostile cohort (tests/fixtures/hostile.csv): markup, script and
+/// formula payloads in notes, column names, category labels and ids. Every
+/// command that reads a cohort runs on it; every CSV written is safe in a
+/// spreadsheet and gives back the payloads exactly once the guard apostrophe
+/// is taken off; no HTML written holds a payload as markup.
+#[test]
+fn hostile_cohort_stays_text_in_every_output() {
+    use pairsight_core::output::restore_cell;
+    let fixtures = Path::new(env!("CARGO_MANIFEST_DIR")).join("../../tests/fixtures");
+    let data = fixtures.join("hostile.csv");
+    let study = fixtures.join("hostile.study.toml");
+    let input = csv_rows(&data);
+    let header = &input[0];
+    let id_col = header.iter().position(|h| h == "patient_id").expect("ids");
+    let ids: Vec<String> = input[1..]
+        .iter()
+        .map(|r| r[id_col].trim().to_string())
+        .collect();
+    let markup: Vec<&str> = input
+        .iter()
+        .flatten()
+        .map(String::as_str)
+        .filter(|c| c.contains('<'))
+        .collect();
+    assert!(
+        markup.len() >= 20,
+        "the fixture should carry at least 20 markup payloads"
+    );
+    let dir = scratch("hostile");
+    let o = |p: &Path| p.as_os_str().to_owned();
+
+    // match: every CSV safe; ids and labels come back exactly.
+    let out = dir.join("match");
+    pairsight(&[
+        "match".as_ref(),
+        &o(&data),
+        "--study".as_ref(),
+        &o(&study),
+        "--out".as_ref(),
+        &o(&out),
+    ]);
+    let problems = formula_problems(&out);
+    assert!(problems.is_empty(), "{problems:#?}");
+    let design = out.join("hostile");
+    let score = csv_rows(&design.join("score.csv"));
+    let back: Vec<String> = score[1..].iter().map(|r| restore_cell(&r[0])).collect();
+    assert_eq!(back, ids, "ids in score.csv differ from the cohort's");
+    for r in &csv_rows(&design.join("matched.csv"))[1..] {
+        assert!(ids.contains(&restore_cell(&r[1])), "unknown id {:?}", r[1]);
+    }
+    let terms: Vec<String> = csv_rows(&design.join("balance.csv"))[1..]
+        .iter()
+        .map(|r| restore_cell(&r[0]))
+        .collect();
+    for want in [
+        "<img src=x onerror=alert(1)>",
+        "=HYPERLINK(\"http://example.invalid\",\"x\")",
+        "@risk",
+        "-flag",
+        "unit=<script>alert(1)</script>",
+        "unit=\"><svg onload=alert(1)>",
+        "unit==cmd|' /C calc'!A0",
+        "unit={{7*7}}",
+    ] {
+        assert!(
+            terms.iter().any(|t| t == want),
+            "balance.csv lacks {want:?}: {terms:?}"
+        );
+    }
+
+    // features: the same guard on the id column.
+    let features = dir.join("features.csv");
+    pairsight(&[
+        "features".as_ref(),
+        &o(&data),
+        "--study".as_ref(),
+        &o(&study),
+        "--out".as_ref(),
+        &o(&features),
+    ]);
+    let problems = formula_problems(&dir);
+    assert!(problems.is_empty(), "{problems:#?}");
+    let rows = csv_rows(&features);
+    let back: Vec<String> = rows[1..].iter().map(|r| restore_cell(&r[0])).collect();
+    assert_eq!(back, ids);
+
+    // effect: plain text with the caution beside the estimate.
+    let eff = pairsight(&["effect".as_ref(), &o(&data), "--study".as_ref(), &o(&study)]);
+    let text = String::from_utf8_lossy(&eff.stdout);
+    assert!(text.contains("unmeasured confounding"), "{text}");
+
+    // report (with notes) and packets: no payload survives as markup.
+    let report = dir.join("report.html");
+    pairsight(&[
+        "report".as_ref(),
+        &o(&data),
+        "--study".as_ref(),
+        &o(&study),
+        "--out".as_ref(),
+        &o(&report),
+        "--include-notes".as_ref(),
+    ]);
+    let packets = dir.join("packets");
+    pairsight(&[
+        "packet".as_ref(),
+        &o(&data),
+        "--study".as_ref(),
+        &o(&study),
+        "--out".as_ref(),
+        &o(&packets),
+        "--reviewers".as_ref(),
+        "a,b".as_ref(),
+        "--show".as_ref(),
+        "unit,@risk,<img src=x onerror=alert(1)>".as_ref(),
+    ]);
+    let mut pages = vec![report.clone()];
+    pages.extend(
+        std::fs::read_dir(&packets)
+            .expect("packets")
+            .flatten()
+            .map(|e| e.path())
+            .filter(|p| p.extension().is_some_and(|x| x == "html")),
+    );
+    assert_eq!(pages.len(), 3, "a report and two packets");
+    for page in &pages {
+        let html = std::fs::read_to_string(page).expect("HTML");
+        for p in &markup {
+            assert!(
+                !html.contains(p),
+                "{} holds the payload {p:?} as markup",
+                page.display()
+            );
+        }
+    }
+    let html = std::fs::read_to_string(&report).expect("report");
+    assert!(
+        html.contains("&lt;img src=x onerror=alert(1)&gt;"),
+        "the report shows the column name as text"
+    );
+    let problems = formula_problems(&dir);
+    assert!(problems.is_empty(), "{problems:#?}");
+}
