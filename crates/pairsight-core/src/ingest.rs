@@ -636,14 +636,7 @@ pub fn read_table(bytes: &[u8]) -> Result<Table> {
     }
     let names: Vec<String> = rec.iter().map(|h| h.trim().to_string()).collect();
     if names.len() == 1 {
-        let shown: String = names[0].chars().take(60).collect();
-        return Err(Error::data(
-            Some(1),
-            None,
-            format!(
-                "the header holds a single column (\"{shown}\"); pairsight reads files whose columns are separated by commas, semicolons or tabs"
-            ),
-        ));
+        return Err(single_column(&names[0]));
     }
     let mut first_of: std::collections::BTreeMap<&str, usize> = std::collections::BTreeMap::new();
     for (i, n) in names.iter().enumerate() {
@@ -724,6 +717,9 @@ pub fn read_table(bytes: &[u8]) -> Result<Table> {
         if cells[last].iter().all(|c| c.trim().is_empty()) {
             names.pop();
             cells.pop();
+            if names.len() == 1 {
+                return Err(single_column(&names[0]));
+            }
             notices.push(
                 "every line ends with a delimiter; the resulting empty, unnamed last column was left out"
                     .to_string(),
@@ -768,6 +764,17 @@ pub fn read_table(bytes: &[u8]) -> Result<Table> {
         delimiter: delimiter as char,
         notices,
     })
+}
+
+fn single_column(name: &str) -> Error {
+    let shown: String = name.chars().take(60).collect();
+    Error::data(
+        Some(1),
+        None,
+        format!(
+            "the header holds a single column (\"{shown}\"); pairsight reads files whose columns are separated by commas, semicolons or tabs"
+        ),
+    )
 }
 
 fn empty_header(i: usize) -> Error {
@@ -1016,6 +1023,10 @@ mod tests {
 
     #[test]
     fn a_single_column_is_refused_with_the_delimiters_read() {
+        // Also when the second column was only a trailing delimiter
+        // (found by the reading property).
+        let e = err_of(b"\"\"sep=;\nasep=;\n").to_string();
+        assert!(e.contains("single column"), "{e}");
         let e = err_of(b"a|b|c\n1|2|3\n").to_string();
         assert!(
             e.contains("single column") && e.contains("semicolons or tabs"),
