@@ -1,0 +1,254 @@
+// The Data step: open a cohort file (file picker or drag and drop anywhere on
+// the page) and see what the core made of it: shape, encoding, delimiter, and
+// each column's inferred kind and missing count.
+
+import { el, append, replaceChildren, formatCount } from '../dom.js';
+import { showError, clearError, showNotice, clearNotice } from '../banner.js';
+
+const KIND_LABELS = {
+  numeric: 'numeric',
+  binary: 'binary',
+  categorical: 'categorical',
+  text: 'text',
+};
+
+const KIND_NOTES = {
+  numeric: 'every value is a number',
+  binary: 'every value is 0 or 1',
+  categorical: 'a modest number of distinct labels',
+  text: 'long or mostly distinct values, such as a note',
+};
+
+/**
+ * Draw the data screen into `screen`. Returns `openBytes(name, bytes)` so
+ * other parts of the page (the demo) can open a file the same way.
+ */
+export function mountData(screen, engine) {
+  const input = el('input', {
+    type: 'file',
+    class: 'visually-hidden',
+    accept: '.csv,.tsv,.txt,text/csv,text/tab-separated-values,text/plain',
+    'data-testid': 'file-input',
+  });
+  const picker = el('label', { class: 'button' }, 'Choose a file…', input);
+  const lead = el('p', { class: 'dropzone-lead', text: 'Drop a cohort file here' });
+  const dropZone = el(
+    'div',
+    { class: 'dropzone', 'data-testid': 'drop-zone' },
+    lead,
+    el('p', { class: 'dropzone-or', text: 'or' }),
+    picker,
+    el('p', {
+      class: 'dropzone-hint',
+      text: 'A CSV with a header row; comma, semicolon or tab between values; UTF-8 or Latin-1.',
+    }),
+  );
+  const status = el('p', { class: 'status', 'data-testid': 'data-status', 'aria-live': 'polite' });
+  const summary = el('section', { class: 'summary', 'data-testid': 'summary', hidden: true });
+
+  replaceChildren(
+    screen,
+    el('h1', { text: 'Data' }),
+    el('p', {
+      class: 'lede',
+      text:
+        'Open the cohort: one row per patient, one column per field. The file is read here, in this ' +
+        'browser; it is not uploaded anywhere.',
+    }),
+    dropZone,
+    status,
+    summary,
+  );
+
+  input.addEventListener('change', () => {
+    const file = input.files?.[0];
+    // Clearing the value lets the same file be chosen again after a fix.
+    input.value = '';
+    if (!file) return;
+    clearNotice();
+    openFile(file);
+  });
+  listenForDrops(dropZone, (files) => {
+    if (files.length > 1) showNotice(`${files.length} files were dropped; only “${files[0].name}” was opened.`);
+    else clearNotice();
+    openFile(files[0]);
+  });
+
+  // Only the latest file counts: a slow read finishing after a newer one
+  // must not overwrite it.
+  let latest = 0;
+
+  async function openFile(file) {
+    let bytes;
+    try {
+      bytes = await file.arrayBuffer();
+    } catch (err) {
+      showError(
+        { kind: 'data', message: `The browser could not read the file: ${err?.message ?? err}`, row: null, column: null },
+        `Could not open “${file.name}”`,
+      );
+      return;
+    }
+    await openBytes(file.name, bytes);
+  }
+
+  async function openBytes(name, bytes) {
+    const token = ++latest;
+    const buffer = toArrayBuffer(bytes);
+    clearError();
+    summary.hidden = true;
+    status.textContent = `Reading “${name}” (${formatBytes(buffer.byteLength)})…`;
+    try {
+      const [result, markers] = await Promise.all([
+        engine.call('summarize_csv', { bytes: buffer }, { transfer: [buffer] }),
+        missingMarkers(engine),
+      ]);
+      if (token !== latest) return;
+      status.textContent = '';
+      drawSummary(summary, name, result, markers);
+      summary.hidden = false;
+      dropZone.classList.add('is-compact');
+      lead.textContent = 'Drop another cohort file here';
+    } catch (err) {
+      if (token !== latest) return;
+      status.textContent = '';
+      replaceChildren(summary);
+      showError(err, `Could not read “${name}”`);
+    }
+  }
+
+  return { openBytes };
+}
+
+let markersOnce = null;
+
+/** The cell values the core counts as missing (asked once). */
+function missingMarkers(engine) {
+  markersOnce ??= engine.call('missing_markers').catch(() => null);
+  return markersOnce;
+}
+
+function listenForDrops(zone, onFiles) {
+  // The whole window accepts a drop: a file dropped just beside the zone
+  // must not make the browser navigate away from the page.
+  let depth = 0;
+  const carriesFiles = (event) => Array.from(event.dataTransfer?.types ?? []).includes('Files');
+  window.addEventListener('dragenter', (event) => {
+    if (!carriesFiles(event)) return;
+    depth += 1;
+    zone.classList.add('is-over');
+  });
+  window.addEventListener('dragleave', (event) => {
+    if (!carriesFiles(event)) return;
+    depth = Math.max(0, depth - 1);
+    if (depth === 0) zone.classList.remove('is-over');
+  });
+  window.addEventListener('dragover', (event) => {
+    event.preventDefault();
+    if (event.dataTransfer) event.dataTransfer.dropEffect = 'copy';
+  });
+  window.addEventListener('drop', (event) => {
+    event.preventDefault();
+    depth = 0;
+    zone.classList.remove('is-over');
+    const files = Array.from(event.dataTransfer?.files ?? []);
+    if (files.length) onFiles(files);
+  });
+}
+
+function drawSummary(section, name, s, markers) {
+  const rows = s.column_summaries.map((c, i) =>
+    el(
+      'tr',
+      { 'data-testid': 'column-row', 'data-column': c.name, 'data-kind': c.kind, 'data-missing': c.missing },
+      el('td', { class: 'num muted', text: String(i + 1) }),
+      el('th', { scope: 'row', class: 'column-name', text: c.name }),
+      el(
+        'td',
+        {},
+        el('span', { class: `kind kind-${c.kind}`, title: KIND_NOTES[c.kind] ?? '', text: KIND_LABELS[c.kind] ?? c.kind }),
+      ),
+      missingCell(c.missing, s.rows),
+      el('td', { class: 'num', text: formatCount(c.distinct) }),
+    ),
+  );
+  const table = el(
+    'table',
+    { class: 'columns', 'data-testid': 'column-table' },
+    el('caption', { text: 'Columns, with the kind inferred from their values' }),
+    el(
+      'thead',
+      {},
+      el(
+        'tr',
+        {},
+        el('th', { scope: 'col', class: 'num', text: '#' }),
+        el('th', { scope: 'col', text: 'Column' }),
+        el('th', { scope: 'col', text: 'Kind' }),
+        el('th', { scope: 'col', class: 'num', text: 'Missing' }),
+        el('th', { scope: 'col', class: 'num', text: 'Distinct values' }),
+      ),
+    ),
+    el('tbody', {}, rows),
+  );
+  const facts = el(
+    'dl',
+    { class: 'facts' },
+    fact('Encoding', s.encoding, 'summary-encoding'),
+    fact('Delimiter', s.delimiter, 'summary-delimiter'),
+  );
+  const notes = el(
+    'p',
+    { class: 'footnote' },
+    markers ? `Counted as missing: ${describeMarkers(markers)}. ` : null,
+    'Kinds: binary when every value is 0 or 1, numeric when every value is a number, categorical for a modest ' +
+      'number of labels, text for long or mostly distinct values.',
+  );
+  replaceChildren(
+    section,
+    el('h2', { class: 'file-name', 'data-testid': 'summary-file', text: name }),
+    el(
+      'p',
+      { class: 'shape', 'data-testid': 'summary-shape' },
+      el('span', { 'data-testid': 'summary-rows', text: formatCount(s.rows) }),
+      s.rows === 1 ? ' row × ' : ' rows × ',
+      el('span', { 'data-testid': 'summary-columns', text: formatCount(s.columns) }),
+      s.columns === 1 ? ' column' : ' columns',
+    ),
+    facts,
+    el('div', { class: 'table-wrap' }, table),
+    notes,
+  );
+}
+
+function fact(label, value, testId) {
+  const wrap = el('div', { class: 'fact' });
+  return append(wrap, el('dt', { text: label }), el('dd', { 'data-testid': testId, text: value }));
+}
+
+function missingCell(missing, rows) {
+  if (missing === 0) return el('td', { class: 'num muted', text: 'none' });
+  const share = rows > 0 ? (100 * missing) / rows : 0;
+  return el(
+    'td',
+    { class: 'num has-missing' },
+    formatCount(missing),
+    el('span', { class: 'share', text: ` (${share.toFixed(share < 10 ? 1 : 0)}%)` }),
+  );
+}
+
+function describeMarkers(markers) {
+  return markers.map((m) => (m === '' ? 'empty cells' : `“${m}”`)).join(', ') + ' (in any letter case)';
+}
+
+function toArrayBuffer(bytes) {
+  if (bytes instanceof ArrayBuffer) return bytes;
+  // A view (say a Uint8Array from the core): copy just its window.
+  return bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength);
+}
+
+function formatBytes(n) {
+  if (n >= 1e6) return `${(n / 1e6).toFixed(1)} MB`;
+  if (n >= 1e3) return `${(n / 1e3).toFixed(0)} kB`;
+  return `${n} bytes`;
+}

@@ -1,0 +1,88 @@
+// The engine room: every call into the wasm core runs here, off the page's
+// main thread. A classic worker script. In the single file it comes right
+// after wasm-bindgen's glue in one blob, so `wasm_bindgen` already exists;
+// served, it loads the glue from its own origin. The protocol is described
+// in engine.js.
+
+if (typeof wasm_bindgen === 'undefined') importScripts('pairsight_wasm.js');
+
+const core = wasm_bindgen;
+
+// Each method is named after the binding it calls. The ready message lists
+// those this build of the core has, so the page can offer what exists and
+// nothing else (`demo_cohort` arrives with the demo generator).
+const METHODS = {
+  version: () => core.version(),
+  missing_markers: () => core.missing_markers(),
+  summarize_csv: ({ bytes }) => core.summarize_csv(new Uint8Array(bytes)),
+  demo_cohort: ({ seed }) => core.demo_cohort(seed),
+};
+
+// After a trap (a Rust panic) the instance's memory cannot be trusted; every
+// later call is refused and the page starts a fresh worker.
+let broken = false;
+
+self.addEventListener('message', (event) => {
+  const msg = event.data;
+  if (msg.type === 'init') init(msg.wasm);
+  else if (msg.type === 'call') call(msg);
+});
+
+async function init(wasm) {
+  try {
+    const bytes = typeof wasm === 'string' ? fromBase64(wasm) : wasm;
+    await core({ module_or_path: bytes });
+    const methods = Object.keys(METHODS).filter((name) => typeof core[name] === 'function');
+    self.postMessage({ type: 'ready', version: core.version(), methods });
+  } catch (err) {
+    self.postMessage({ type: 'failed', error: toErrorShape(err, 'The engine could not start') });
+  }
+}
+
+function call({ id, method, args }) {
+  if (broken) {
+    self.postMessage({ type: 'error', id, fatal: true, error: internal('The engine must restart after an internal error.') });
+    return;
+  }
+  const run = Object.hasOwn(METHODS, method) && typeof core[method] === 'function' ? METHODS[method] : null;
+  if (!run) {
+    self.postMessage({ type: 'error', id, fatal: false, error: internal(`This build has no engine method "${method}".`) });
+    return;
+  }
+  const progress = (done, total, label) => self.postMessage({ type: 'progress', id, done, total, label });
+  try {
+    const value = run(args ?? {}, progress);
+    self.postMessage({ type: 'result', id, value });
+  } catch (err) {
+    const fatal = err instanceof WebAssembly.RuntimeError;
+    if (fatal) broken = true;
+    self.postMessage({ type: 'error', id, fatal, error: toErrorShape(err, 'Internal error in the engine') });
+  }
+}
+
+function internal(message) {
+  return { kind: 'internal', message, detail: message, row: null, column: null, key: null };
+}
+
+// The core throws the error shape already; anything else is a fault of the
+// engine and is described as one.
+function toErrorShape(err, prefix) {
+  if (err && typeof err === 'object' && typeof err.kind === 'string' && typeof err.message === 'string') {
+    return {
+      kind: err.kind,
+      message: err.message,
+      detail: err.detail ?? err.message,
+      row: err.row ?? null,
+      column: err.column ?? null,
+      key: err.key ?? null,
+    };
+  }
+  return internal(`${prefix}: ${err?.message ?? String(err)}`);
+}
+
+function fromBase64(text) {
+  const binary = atob(text);
+  const bytes = new Uint8Array(binary.length);
+  for (let i = 0; i < binary.length; i += 1) bytes[i] = binary.charCodeAt(i);
+  return bytes;
+}
