@@ -48,18 +48,29 @@ impl Elem for f64 {
     }
 }
 
-/// y = A z, with z (cols x l) and y (rows x l) dense row-major.
-fn mul<T: Elem>(indptr: &[usize], indices: &[u32], values: &[T], z: &[T], l: usize, y: &mut [T]) {
-    for (i, yi) in y.chunks_exact_mut(l).enumerate() {
-        yi.fill(T::default());
-        let (a, b) = (indptr[i], indptr[i + 1]);
-        for (&j, &x) in indices[a..b].iter().zip(&values[a..b]) {
-            let zj = &z[j as usize * l..j as usize * l + l];
-            for (t, &s) in yi.iter_mut().zip(zj) {
-                *t += x * s;
+/// y = A z, with z (cols x l) and y (rows x l) dense row-major; rows of y
+/// are computed independently, so blocks of them go to separate threads.
+fn mul<T: Elem + Send + Sync>(
+    indptr: &[usize],
+    indices: &[u32],
+    values: &[T],
+    z: &[T],
+    l: usize,
+    y: &mut [T],
+) {
+    super::parallel::for_row_blocks(y, l, 512, |first, block| {
+        for (k, yi) in block.chunks_exact_mut(l).enumerate() {
+            let i = first + k;
+            yi.fill(T::default());
+            let (a, b) = (indptr[i], indptr[i + 1]);
+            for (&j, &x) in indices[a..b].iter().zip(&values[a..b]) {
+                let zj = &z[j as usize * l..j as usize * l + l];
+                for (t, &s) in yi.iter_mut().zip(zj) {
+                    *t += x * s;
+                }
             }
         }
-    }
+    });
 }
 
 /// Orthonormal basis of the columns of a row-major r x l block, in place:
