@@ -25,6 +25,7 @@ mod concepts;
 mod diversity;
 mod latent;
 mod negation;
+mod parallel;
 mod readability;
 mod termshift;
 mod tfidf;
@@ -166,8 +167,62 @@ pub const BASE_FEATURES: [&str; 6] = [
     "note.mtld",
 ];
 
+/// What one pass over a run of notes yields.
+struct Part {
+    counted: tokens::Counted,
+    base: Vec<[f64; 6]>,
+    /// Affirmed and negated counts, 2 per concept, notes one after another.
+    concepts: Vec<f64>,
+}
+
+/// Tokens, counts, readability, diversity and concept counts of `notes`.
+fn note_pass<S: AsRef<str>>(notes: &[S], matcher: &ConceptMatcher, options: &NoteOptions) -> Part {
+    let mut counter = tokens::TermCounter::new(options);
+    let mut diversity = diversity::Diversity::default();
+    let mut base = Vec::with_capacity(notes.len());
+    let nc = matcher.names().len();
+    let mut concepts = Vec::with_capacity(notes.len() * 2 * nc);
+    let mut runs = Vec::new();
+    for note in notes {
+        let note = note.as_ref();
+        let lower = tokens::lowercase(note);
+        runs.clear();
+        let unigrams = counter.add_with_runs(&lower, Some(&mut runs));
+        let spans = tokens::words_from_runs(&lower, &runs);
+        let word_list: Vec<&str> = spans.iter().map(|&(s, e)| &lower[s..e]).collect();
+        let (ttr, mtld, syllables) = diversity.measure(&word_list);
+        let tc = TextCounts {
+            words: spans.len(),
+            sentences: sentences(&lower),
+            syllables,
+        };
+        base.push([
+            unigrams as f64,
+            tc.sentences as f64,
+            flesch_reading_ease(&tc),
+            flesch_kincaid_grade(&tc),
+            ttr,
+            mtld,
+        ]);
+        if nc > 0 {
+            for (aff, neg) in matcher.count(note) {
+                concepts.push(aff as f64);
+                concepts.push(neg as f64);
+            }
+        }
+    }
+    Part {
+        counted: counter.finish(),
+        base,
+        concepts,
+    }
+}
+
 /// Computes every note feature of `notes` (see [`NoteFeatures`]).
-pub fn analyze<S: AsRef<str>>(
+///
+/// Natively the notes are split over the machine's threads; the result is
+/// bit-identical to a single-threaded run (and to the WebAssembly build).
+pub fn analyze<S: AsRef<str> + Sync>(
     notes: &[S],
     concepts: &[Concept],
     options: &NoteOptions,
@@ -183,36 +238,23 @@ pub fn analyze<S: AsRef<str>>(
     }
     let matcher = ConceptMatcher::new(concepts)?;
     let n = notes.len();
-    let mut counter = tokens::TermCounter::new(options);
-    let mut diversity = diversity::Diversity::default();
+    let nc = concepts.len();
+    let parts = parallel::map_ranges(n, 1000, |r| note_pass(&notes[r], &matcher, options));
     let mut base = Array2::<f64>::zeros((n, BASE_FEATURES.len()));
-    let mut concept_counts = Array2::<f64>::zeros((n, 2 * concepts.len()));
-    for (i, note) in notes.iter().enumerate() {
-        let note = note.as_ref();
-        let lower = tokens::lowercase(note);
-        let unigrams = counter.add(&lower);
-        let spans = tokens::words(&lower);
-        let word_list: Vec<&str> = spans.iter().map(|&(s, e)| &lower[s..e]).collect();
-        let (ttr, mtld, syllables) = diversity.measure(&word_list);
-        let tc = TextCounts {
-            words: spans.len(),
-            sentences: sentences(&lower),
-            syllables,
-        };
-        base[[i, 0]] = unigrams as f64;
-        base[[i, 1]] = tc.sentences as f64;
-        base[[i, 2]] = flesch_reading_ease(&tc);
-        base[[i, 3]] = flesch_kincaid_grade(&tc);
-        base[[i, 4]] = ttr;
-        base[[i, 5]] = mtld;
-        if !concepts.is_empty() {
-            for (c, (aff, neg)) in matcher.count(note).into_iter().enumerate() {
-                concept_counts[[i, 2 * c]] = aff as f64;
-                concept_counts[[i, 2 * c + 1]] = neg as f64;
+    let mut concept_counts = Array2::<f64>::zeros((n, 2 * nc));
+    let mut row = 0;
+    for p in &parts {
+        for (k, b) in p.base.iter().enumerate() {
+            for (j, &x) in b.iter().enumerate() {
+                base[[row + k, j]] = x;
+            }
+            for j in 0..2 * nc {
+                concept_counts[[row + k, j]] = p.concepts[k * 2 * nc + j];
             }
         }
+        row += p.base.len();
     }
-    let counted = counter.finish();
+    let counted = tokens::merge(parts.into_iter().map(|p| p.counted).collect());
     let counts = SparseRows {
         n_cols: counted.vocabulary.len(),
         indptr: counted.indptr,
