@@ -346,8 +346,8 @@ pub fn generate(params: &DemoParams) -> Result<Demo> {
         );
         let prior = prior_admissions as f64;
         let sodium_true = (139.0 + 3.5 * rng.normal() - 1.0 * c).round() as i32;
-        let creatinine_true =
-            (0.0f64 + 0.10 * age_s + 0.05 * com_c + 0.30 * rng.normal()).exp() * 1.0;
+        // mg/dL, log-normal around 1.0, printed with two decimals.
+        let creatinine_true = (0.10 * age_s + 0.05 * com_c + 0.30 * rng.normal()).exp();
         let creatinine_true = (creatinine_true * 100.0).round() / 100.0;
         let heart_rate = (82.0 + 14.0 * rng.normal() + if route == 0 { 4.0 } else { 0.0 })
             .round()
