@@ -1,134 +1,70 @@
-//! Calibration on the invented demo cohort: the note-aware design's matched
-//! interval for 30-day readmission covers the true effect on the treated
-//! that the generator knows (`truth.json`). Runs the whole command line:
-//! `demo`, `effect`, `report`, `packet` and `agree`.
-//!
-//! Ignored until the demo generator is built (`pairsight demo` says "not
-//! built yet"); run with `cargo test -p pairsight-cli --test demo -- --ignored`.
+//! The committed demo folder is exactly what the generator makes with the
+//! default parameters, and `pairsight demo` writes the same bytes.
 
-mod common;
-use common::*;
-use pairsight_core::study::{DistanceKind, Study};
-use std::path::{Path, PathBuf};
+use pairsight_core::demo::{generate, DemoParams};
+use std::path::PathBuf;
 
-/// The demo's files: the repository's `demo/` when present, else freshly
-/// generated with `pairsight demo`.
-fn demo_files(dir: &Path) -> (PathBuf, PathBuf, PathBuf) {
-    let repo = root().join("demo");
-    let from = if repo.join("cohort.csv").exists() {
-        repo
-    } else {
-        ok(&pairsight([
-            "demo".as_ref(),
-            "--out".as_ref(),
-            dir.as_os_str(),
-        ]));
-        dir.to_path_buf()
-    };
-    (
-        from.join("cohort.csv"),
-        from.join("demo.study.toml"),
-        from.join("truth.json"),
-    )
+fn committed(name: &str) -> String {
+    let path = PathBuf::from(env!("CARGO_MANIFEST_DIR"))
+        .join("../../demo")
+        .join(name);
+    std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("{}: {e}", path.display()))
 }
 
-/// The first design whose score terms or distance use the notes.
-fn note_aware_design(study: &str) -> String {
-    let study = Study::from_toml(study).unwrap();
-    study
-        .designs
-        .iter()
-        .find(|d| {
-            d.score_terms
-                .iter()
-                .any(|t| t.starts_with("concept.") || t.starts_with("note."))
-                || matches!(d.distance, DistanceKind::NoteCosine | DistanceKind::Blend)
-        })
-        .expect("the demo study has a note-aware design")
-        .name
-        .clone()
+const REGENERATE: &str =
+    "regenerate with `cargo run --release -p pairsight-cli -- demo --out demo`";
+
+#[test]
+fn committed_demo_matches_the_generator_byte_for_byte() {
+    let demo = generate(&DemoParams::default()).unwrap();
+    assert!(
+        committed("cohort.csv") == demo.cohort_csv,
+        "demo/cohort.csv differs from the generator; {REGENERATE}"
+    );
+    assert!(
+        committed("demo.study.toml") == demo.study_toml,
+        "demo/demo.study.toml differs; {REGENERATE}"
+    );
+    assert!(
+        committed("truth.json") == demo.truth_json().unwrap(),
+        "demo/truth.json differs; {REGENERATE}"
+    );
 }
 
 #[test]
-#[ignore = "needs the demo generator; run with --ignored once `pairsight demo` is built"]
-fn note_aware_interval_covers_the_true_readmission_effect() {
-    let dir = fresh("demo");
-    let (data, study, truth) = demo_files(&dir);
-    let design = note_aware_design(&std::fs::read_to_string(&study).unwrap());
-    let truth: serde_json::Value =
-        serde_json::from_str(&std::fs::read_to_string(&truth).unwrap()).unwrap();
-    let outcome = truth["outcomes"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .find(|o| o["kind"] == "binary")
-        .expect("a binary (readmission) outcome in truth.json");
-    let name = outcome["name"].as_str().unwrap();
-    let att = outcome["effect_on_treated"].as_f64().unwrap();
-
-    let out = dir.join("runs");
-    ok(&pairsight([
-        "match".as_ref(),
-        data.as_os_str(),
-        "--study".as_ref(),
-        study.as_os_str(),
-        "--out".as_ref(),
-        out.as_os_str(),
-        "--design".as_ref(),
-        design.as_ref(),
-    ]));
-    let effect: serde_json::Value = serde_json::from_str(
-        &std::fs::read_to_string(out.join(&design).join("effect.json")).unwrap(),
-    )
-    .unwrap();
-    let o = effect["outcomes"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .find(|o| o["name"] == name)
+fn the_command_writes_the_committed_bytes() {
+    let out = std::env::temp_dir().join(format!("pairsight-demo-test-{}", std::process::id()));
+    let status = std::process::Command::new(env!("CARGO_BIN_EXE_pairsight"))
+        .args(["demo", "--out"])
+        .arg(&out)
+        .output()
         .unwrap();
-    let (lo, hi) = (
-        o["matched"]["ci_low"].as_f64().unwrap(),
-        o["matched"]["ci_high"].as_f64().unwrap(),
-    );
-    let est = o["matched"]["estimate"].as_f64().unwrap();
     assert!(
-        lo <= att && att <= hi,
-        "design {design}: matched {name} estimate {est} ({lo} to {hi}) does not cover the true effect on the treated {att}"
+        status.status.success(),
+        "{}",
+        String::from_utf8_lossy(&status.stderr)
     );
+    let stdout = String::from_utf8_lossy(&status.stdout);
+    assert!(stdout.contains("invented"), "{stdout}");
+    for name in ["cohort.csv", "demo.study.toml", "truth.json"] {
+        let written = std::fs::read_to_string(out.join(name)).unwrap();
+        assert!(
+            written == committed(name),
+            "{name} differs from demo/{name}"
+        );
+    }
+    std::fs::remove_dir_all(&out).unwrap();
+}
 
-    // The rest of the command line runs on the demo too.
-    let o = pairsight([
-        "effect".as_ref(),
-        data.as_os_str(),
-        "--study".as_ref(),
-        study.as_os_str(),
-    ]);
-    ok(&o);
-    assert!(stdout(&o).contains(&format!("Design \"{design}\"")));
-    let html = dir.join("report.html");
-    ok(&pairsight([
-        "report".as_ref(),
-        data.as_os_str(),
-        "--study".as_ref(),
-        study.as_os_str(),
-        "--out".as_ref(),
-        html.as_os_str(),
-    ]));
-    let page = std::fs::read_to_string(&html).unwrap();
-    assert!(page.contains("<section id=\"effect\">"));
-    let round = dir.join("round");
-    ok(&pairsight([
-        "packet".as_ref(),
-        data.as_os_str(),
-        "--study".as_ref(),
-        study.as_os_str(),
-        "--out".as_ref(),
-        round.as_os_str(),
-        "--reviewers".as_ref(),
-        "r1,r2".as_ref(),
-        "--sets-per-design".as_ref(),
-        "10".as_ref(),
-    ]));
-    assert!(round.join("packet-r1.html").exists() && round.join("round-key.json").exists());
+#[test]
+fn bad_arguments_are_messages_not_panics() {
+    let output = std::process::Command::new(env!("CARGO_BIN_EXE_pairsight"))
+        .args(["demo", "--patients", "0", "--out"])
+        .arg(std::env::temp_dir().join("pairsight-demo-never-written"))
+        .output()
+        .unwrap();
+    assert_eq!(output.status.code(), Some(2));
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(stderr.contains("patients"), "{stderr}");
+    assert!(!stderr.contains("panicked"), "{stderr}");
 }
