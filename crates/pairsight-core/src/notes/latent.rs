@@ -149,8 +149,15 @@ fn gram<T: Elem + Into<f64>>(buf: &[T], l: usize) -> DMatrix<f64> {
     })
 }
 
-/// The transpose of `a`, so that products with A' read rows too.
-fn transpose(a: &SparseRows) -> SparseRows {
+/// The transpose of `a` with values `values` (those of `a`, possibly in
+/// another precision), so that products with A' read rows too.
+struct Transposed<T> {
+    indptr: Vec<usize>,
+    indices: Vec<u32>,
+    values: Vec<T>,
+}
+
+fn transpose<T: Elem>(a: &SparseRows, values: &[T]) -> Transposed<T> {
     let mut indptr = vec![0usize; a.n_cols + 1];
     for &c in &a.indices {
         indptr[c as usize + 1] += 1;
@@ -160,21 +167,20 @@ fn transpose(a: &SparseRows) -> SparseRows {
     }
     let mut next = indptr.clone();
     let mut indices = vec![0u32; a.indices.len()];
-    let mut values = vec![0.0; a.values.len()];
+    let mut out = vec![T::default(); values.len()];
     for i in 0..a.n_rows() {
-        let (c, v) = a.row(i);
-        for (&k, &x) in c.iter().zip(v) {
+        let (lo, hi) = (a.indptr[i], a.indptr[i + 1]);
+        for (&k, &x) in a.indices[lo..hi].iter().zip(&values[lo..hi]) {
             let p = next[k as usize];
             indices[p] = i as u32;
-            values[p] = x;
+            out[p] = x;
             next[k as usize] += 1;
         }
     }
-    SparseRows {
-        n_cols: a.n_rows(),
+    Transposed {
         indptr,
         indices,
-        values,
+        values: out,
     }
 }
 
@@ -225,20 +231,19 @@ pub fn truncated_svd(a: &SparseRows, k: usize, seed: u64) -> Result<Latent> {
     let mut rng = Rng::new(seed);
     let mut scores = Array2::<f64>::zeros((n, k));
     let sv: Vec<f64>;
-    let at = transpose(a);
     let a32: Vec<f32> = a.values.iter().map(|&x| x as f32).collect();
-    let at32: Vec<f32> = at.values.iter().map(|&x| x as f32).collect();
+    let at = transpose(a, &a32);
     // Power iterations in single precision on the smaller side; the result
     // is re-orthonormalized in double precision before the final step.
     let (side, other) = if m <= n { (m, n) } else { (n, m) };
     let (first, second) = if m <= n {
         (
             (&a.indptr, &a.indices, &a32),
-            (&at.indptr, &at.indices, &at32),
+            (&at.indptr, &at.indices, &at.values),
         )
     } else {
         (
-            (&at.indptr, &at.indices, &at32),
+            (&at.indptr, &at.indices, &at.values),
             (&a.indptr, &a.indices, &a32),
         )
     };
@@ -272,7 +277,8 @@ pub fn truncated_svd(a: &SparseRows, k: usize, seed: u64) -> Result<Latent> {
     } else {
         // Q spans the top left singular vectors: A' Q = V S W', so
         // A ~ Q Q' A = (Q W) S V', and U S = Q W S.
-        mul(&at.indptr, &at.indices, &at.values, &q, l, &mut y);
+        let at64 = transpose(a, &a.values);
+        mul(&at64.indptr, &at64.indices, &at64.values, &q, l, &mut y);
         let (s, w) = gram_svd(&y, l)?;
         let wc: Vec<f64> = w.as_slice().to_vec(); // column-major: column c at c * l
         for (i, qi) in q.chunks_exact(l).enumerate() {
