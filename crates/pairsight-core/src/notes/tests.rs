@@ -360,3 +360,32 @@ fn split_over_threads_equals_one_pass() {
         assert_eq!(f.values[[i, fall_neg]], c[2].1 as f64);
     }
 }
+
+#[test]
+fn vectorize_equals_analyze_vectors() {
+    let notes = [
+        "Lives alone. Denies falls.",
+        "",
+        "Recent fall; confused. Lives with son.",
+        "walker walker frame",
+    ];
+    let o = NoteOptions {
+        latent_dims: 2,
+        bigrams: true,
+        ..Default::default()
+    };
+    let f = analyze(&notes, &[], &o).unwrap();
+    let v = vectorize(&notes, &o).unwrap();
+    assert_eq!(v.vocabulary, f.vocabulary);
+    assert_eq!(v.counts, f.counts);
+    assert_eq!(v.tfidf, f.tfidf);
+    assert_eq!(v.latent, f.latent);
+    assert!(vectorize(
+        &notes,
+        &NoteOptions {
+            latent_dims: 100_000,
+            ..Default::default()
+        }
+    )
+    .is_err());
+}

@@ -240,19 +240,21 @@ impl TermMaker {
     /// space, after stop-word removal as is usual for n-grams) follows its
     /// second word. Returns the number of unigrams.
     #[cfg(test)]
-    pub(crate) fn terms(&self, lower: &str, f: impl FnMut(&str)) -> usize {
-        self.terms_and_runs(lower, f, None)
+    pub(crate) fn terms(&self, lower: &str, mut f: impl FnMut(&str)) -> usize {
+        self.terms_and_runs(lower, |t, _| f(t), None)
     }
 
     /// [`TermMaker::terms`], also collecting every run of word characters
-    /// (any length) into `runs` for the word measures.
+    /// (any length) into `runs` for the word measures; `f` also gets, for a
+    /// unigram, the index of the run it came from.
     pub(crate) fn terms_and_runs(
         &self,
         lower: &str,
-        mut f: impl FnMut(&str),
+        mut f: impl FnMut(&str, Option<usize>),
         mut runs: Option<&mut Vec<(usize, usize)>>,
     ) -> usize {
         let mut unigrams = 0usize;
+        let mut run_index = 0usize;
         let mut prev = String::new();
         let mut pair = String::new();
         let mut have_prev = false;
@@ -260,6 +262,8 @@ impl TermMaker {
             if let Some(r) = runs.as_deref_mut() {
                 r.push((s, e));
             }
+            let this_run = run_index;
+            run_index += 1;
             let tok = &lower[s..e];
             // Character count, not bytes: "é" is one character.
             if self.min_len > 1 && (tok.len() < 2 || tok.chars().nth(1).is_none()) {
@@ -273,14 +277,14 @@ impl TermMaker {
                 None => Cow::Borrowed(tok),
             };
             unigrams += 1;
-            f(&term);
+            f(&term, Some(this_run));
             if self.bigrams {
                 if have_prev {
                     pair.clear();
                     pair.push_str(&prev);
                     pair.push(' ');
                     pair.push_str(&term);
-                    f(&pair);
+                    f(&pair, None);
                 }
                 prev.clear();
                 prev.push_str(&term);
@@ -325,6 +329,13 @@ impl Hasher for FastHasher {
 
 pub(crate) type FastMap<K, V> = HashMap<K, V, BuildHasherDefault<FastHasher>>;
 
+/// Where [`TermCounter::add_with_runs`] puts the runs of word characters
+/// and the term id of each run.
+pub(crate) type WordRuns<'a> = (&'a mut Vec<(usize, usize)>, &'a mut Vec<u32>);
+
+/// Marks a run of word characters that is not itself a term.
+pub(crate) const NO_TERM: u32 = u32::MAX;
+
 /// Term counts of a corpus: the sorted vocabulary and, per note, sorted
 /// `(column, count)` pairs.
 pub(crate) struct Counted {
@@ -365,12 +376,19 @@ impl TermCounter {
         self.add_with_runs(lower, None)
     }
 
-    /// [`TermCounter::add`], also collecting the runs of word characters.
-    pub(crate) fn add_with_runs(
-        &mut self,
-        lower: &str,
-        runs: Option<&mut Vec<(usize, usize)>>,
-    ) -> usize {
+    /// [`TermCounter::add`], also collecting the runs of word characters
+    /// and, for each run, the id of the unigram term that is exactly that
+    /// run's text ([`NO_TERM`] when there is none, or when stemming changes
+    /// terms), so the word measures can reuse the lookup.
+    pub(crate) fn add_with_runs(&mut self, lower: &str, words: Option<WordRuns<'_>>) -> usize {
+        let pure = self.maker.stemmer.is_none();
+        let (runs, mut run_terms) = match words {
+            Some((r, t)) => {
+                t.clear();
+                (Some(r), Some(t))
+            }
+            None => (None, None),
+        };
         let TermCounter {
             maker,
             ids,
@@ -381,7 +399,7 @@ impl TermCounter {
         row_ids.clear();
         let n = maker.terms_and_runs(
             lower,
-            |term| {
+            |term, run| {
                 let id = match ids.get(term) {
                     Some(&id) => id,
                     None => {
@@ -393,6 +411,12 @@ impl TermCounter {
                     }
                 };
                 row_ids.push(id);
+                if let (Some(k), Some(rt), true) = (run, run_terms.as_deref_mut(), pure) {
+                    if rt.len() <= k {
+                        rt.resize(k + 1, NO_TERM);
+                    }
+                    rt[k] = id;
+                }
             },
             runs,
         );
