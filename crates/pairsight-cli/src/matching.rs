@@ -52,7 +52,10 @@ pub fn run(args: &MatchArgs) -> Result<(), String> {
         ));
     }
     for design in &designs {
-        let result = analysis.run(design).map_err(in_file(&args.data))?;
+        let result = analysis.run(design).map_err(|e| match e {
+            pairsight_core::Error::Study { .. } => in_file(&args.study)(e),
+            other => in_file(&args.data)(other),
+        })?;
         let dir = args.out.join(&design.name);
         for f in result.files(&analysis).map_err(|e| e.to_string())? {
             write_atomic(&dir.join(&f.name), f.contents.as_bytes())?;

@@ -1,11 +1,14 @@
 //! Reading a cohort file: bytes in, a table of named columns out.
 //!
-//! Accepts UTF-8 with or without a byte-order mark and falls back to
-//! Windows-1252 (a superset of Latin-1's printable characters) when the bytes
-//! are not UTF-8. The delimiter (comma, semicolon or tab) is detected from the
-//! header line. Quoted fields may span lines. Every problem is an
-//! [`Error::Data`] naming the row (as a spreadsheet would number it: the header
-//! is row 1) and the column.
+//! Accepts UTF-8 with or without a byte-order mark, UTF-16 with one, and
+//! falls back to Windows-1252 (a superset of Latin-1's printable characters)
+//! for bytes that are not UTF-8 (see [`decode`]). The delimiter (comma,
+//! semicolon or tab) is detected from the header line, or named by a first
+//! line `sep=;`. Quoted fields may span lines. Numbers with a decimal comma or
+//! grouped thousands are read where the delimiter leaves no doubt (see
+//! [`NumberFormat`]). Every problem is an [`Error::Data`] naming the row (as a
+//! spreadsheet would number it: the header is row 1) and the column; every
+//! automatic decision is listed in [`Table::notices`].
 
 use crate::{Error, Result};
 use serde::Serialize;
@@ -56,6 +59,8 @@ pub struct Column {
     pub cells: Vec<String>,
     /// Inferred kind; callers may override it.
     pub kind: Kind,
+    /// How the column writes numbers (decimal comma, grouped thousands).
+    pub format: NumberFormat,
 }
 
 impl Column {
@@ -65,7 +70,12 @@ impl Column {
     }
     /// The cell as a number, `None` when missing or not numeric.
     pub fn number(&self, row: usize) -> Option<f64> {
-        self.cells.get(row).and_then(|c| parse_number(c))
+        self.cells.get(row).and_then(|c| self.format.parse(c))
+    }
+    /// A cell as a number in this column's format, `None` when missing or
+    /// not numeric.
+    pub fn parse(&self, cell: &str) -> Option<f64> {
+        self.format.parse(cell)
     }
     /// Whether the cell at `row` is missing.
     pub fn is_missing(&self, row: usize) -> bool {
@@ -81,9 +91,9 @@ impl Column {
             .filter(|c| !is_missing(c))
             .collect();
         let mut v: Vec<String> = set.into_iter().map(str::to_string).collect();
-        if v.iter().all(|s| parse_number(s).is_some()) {
+        if v.iter().all(|s| self.format.parse(s).is_some()) {
             v.sort_by(|a, b| {
-                let (x, y) = (parse_number(a), parse_number(b));
+                let (x, y) = (self.format.parse(a), self.format.parse(b));
                 x.partial_cmp(&y)
                     .unwrap_or(std::cmp::Ordering::Equal)
                     .then_with(|| a.cmp(b))
@@ -102,6 +112,9 @@ pub struct Table {
     pub encoding: &'static str,
     /// The detected delimiter.
     pub delimiter: char,
+    /// What the user should know about how the file was read (encoding
+    /// fallback, number formats, a dropped empty column), in plain words.
+    pub notices: Vec<String>,
 }
 
 /// Summary of one column, for the data screen and `summary.json`.
@@ -130,6 +143,8 @@ pub struct TableSummary {
     pub delimiter: String,
     /// One entry per column, in file order.
     pub column_summaries: Vec<ColumnSummary>,
+    /// How the file was read, where it matters (see [`Table::notices`]).
+    pub notices: Vec<String>,
 }
 
 impl Table {
@@ -169,12 +184,7 @@ impl Table {
             rows: self.n_rows(),
             columns: self.n_cols(),
             encoding: self.encoding.to_string(),
-            delimiter: match self.delimiter {
-                ';' => "semicolon",
-                '\t' => "tab",
-                _ => "comma",
-            }
-            .to_string(),
+            delimiter: delimiter_name(self.delimiter),
             column_summaries: self
                 .columns
                 .iter()
@@ -185,7 +195,19 @@ impl Table {
                     distinct: c.levels().len(),
                 })
                 .collect(),
+            notices: self.notices.clone(),
         }
+    }
+}
+
+/// A delimiter as a display name: "comma", "semicolon", "tab", or the
+/// character in quotes (one named by a `sep=` line).
+pub fn delimiter_name(d: char) -> String {
+    match d {
+        ',' => "comma".to_string(),
+        ';' => "semicolon".to_string(),
+        '\t' => "tab".to_string(),
+        other => format!("\"{other}\""),
     }
 }
 
@@ -215,16 +237,116 @@ fn edit_distance(a: &str, b: &str) -> usize {
     prev[b.len()]
 }
 
-/// Decode bytes: UTF-8 (byte-order mark dropped) or, failing that, Windows-1252.
-pub fn decode(bytes: &[u8]) -> (String, &'static str) {
-    let body = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
-    match std::str::from_utf8(body) {
-        Ok(s) => (s.to_string(), "UTF-8"),
-        Err(_) => {
-            let (text, _, _) = encoding_rs::WINDOWS_1252.decode(body);
-            (text.into_owned(), "Windows-1252")
+/// Text decoded from a file's bytes, with how it was read.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Decoded {
+    /// The text, without a byte-order mark.
+    pub text: String,
+    /// Name of the encoding read: `UTF-8`, `UTF-16LE`, `UTF-16BE`,
+    /// `Windows-1252`, or `UTF-8 with Windows-1252 bytes`.
+    pub encoding: &'static str,
+    /// What the user should know about the decoding, if anything.
+    pub notice: Option<String>,
+}
+
+/// Decode a file's bytes.
+///
+/// * A UTF-8 byte-order mark is dropped; a UTF-16 one (little- or big-endian)
+///   selects UTF-16.
+/// * Text that looks like UTF-16 without a byte-order mark (every other byte
+///   zero) is refused with a message, since guessing its byte order could
+///   scramble every character.
+/// * Valid UTF-8 is read as UTF-8.
+/// * Otherwise the file is read as Windows-1252 (a superset of Latin-1's
+///   printable characters) -- unless it also holds valid multi-byte UTF-8
+///   sequences, as when rows from two exports are pasted together: then only
+///   the bytes that are not UTF-8 are read as Windows-1252, so neither part
+///   is garbled.
+pub fn decode(bytes: &[u8]) -> Result<Decoded> {
+    use encoding_rs::{UTF_16BE, UTF_16LE, WINDOWS_1252};
+    let (body, utf16) = if let Some(b) = bytes.strip_prefix(b"\xEF\xBB\xBF") {
+        (b, None)
+    } else if let Some(b) = bytes.strip_prefix(b"\xFF\xFE") {
+        (b, Some((UTF_16LE, "UTF-16LE")))
+    } else if let Some(b) = bytes.strip_prefix(b"\xFE\xFF") {
+        (b, Some((UTF_16BE, "UTF-16BE")))
+    } else {
+        (bytes, None)
+    };
+    if let Some((enc, name)) = utf16 {
+        let (text, had_errors) = enc.decode_without_bom_handling(body);
+        return Ok(Decoded {
+            text: text.into_owned(),
+            encoding: name,
+            notice: had_errors
+                .then(|| format!("some bytes were not valid {name} and were replaced by \u{FFFD}")),
+        });
+    }
+    if looks_like_utf16(body) {
+        return Err(Error::data(
+            None,
+            None,
+            "the file looks like UTF-16 text without a byte-order mark; save it as UTF-8 (in a spreadsheet: \"CSV UTF-8\")",
+        ));
+    }
+    if let Ok(s) = std::str::from_utf8(body) {
+        return Ok(Decoded {
+            text: s.to_string(),
+            encoding: "UTF-8",
+            notice: None,
+        });
+    }
+    let has_utf8_multibyte = body
+        .utf8_chunks()
+        .any(|c| c.valid().bytes().any(|b| b >= 0x80));
+    let first_bad = body.utf8_chunks().next().map_or(0, |c| c.valid().len());
+    let line = body[..first_bad].iter().filter(|&&b| b == b'\n').count() + 1;
+    if !has_utf8_multibyte {
+        let (text, _) = WINDOWS_1252.decode_without_bom_handling(body);
+        return Ok(Decoded {
+            text: text.into_owned(),
+            encoding: "Windows-1252",
+            notice: Some(format!(
+                "the file is not UTF-8 (first at line {line}); it was read as Windows-1252 (Latin-1)"
+            )),
+        });
+    }
+    let mut text = String::with_capacity(body.len() + 16);
+    let mut foreign = 0usize;
+    for chunk in body.utf8_chunks() {
+        text.push_str(chunk.valid());
+        for &b in chunk.invalid() {
+            foreign += 1;
+            let (c, _) = WINDOWS_1252.decode_without_bom_handling(std::slice::from_ref(&b));
+            text.push_str(&c);
         }
     }
+    Ok(Decoded {
+        text,
+        encoding: "UTF-8 with Windows-1252 bytes",
+        notice: Some(format!(
+            "the file is UTF-8 except for {foreign} byte(s), the first at line {line}, which were read as Windows-1252 (Latin-1); check those cells"
+        )),
+    })
+}
+
+/// Whether bytes look like UTF-16 without a byte-order mark: within the first
+/// 4 KiB, most even or most odd positions hold a zero byte. Ordinary text,
+/// even with a stray null byte, does not.
+fn looks_like_utf16(bytes: &[u8]) -> bool {
+    let head = &bytes[..bytes.len().min(4096)];
+    let pairs = head.len() / 2;
+    if pairs < 2 {
+        return false;
+    }
+    let zeros = |offset: usize| {
+        head.iter()
+            .skip(offset)
+            .step_by(2)
+            .filter(|&&b| b == 0)
+            .count()
+    };
+    zeros(0).max(zeros(1)) * 10 >= pairs * 4
 }
 
 /// Count delimiter candidates in the first record (outside quotes) and pick
@@ -246,33 +368,228 @@ fn detect_delimiter(text: &str) -> u8 {
     [b',', b';', b'\t'][best]
 }
 
-/// Find a quote left open at the end of the text; returns the row (header = 1)
-/// where the open quoted field started.
-fn unterminated_quote(text: &str) -> Option<usize> {
-    let mut in_quote = false;
-    let mut row = 1;
-    let mut opened_at = 1;
-    let mut prev_cr = false;
-    for b in text.bytes() {
-        match b {
-            b'"' => {
-                in_quote = !in_quote;
-                if in_quote {
-                    opened_at = row;
+/// A first line `sep=X` (a spreadsheet convention naming the delimiter):
+/// the delimiter and the text after that line.
+fn separator_line(text: &str) -> Option<(u8, &str)> {
+    let rest = text.strip_prefix("sep=")?;
+    let mut chars = rest.char_indices();
+    let (_, d) = chars.next()?;
+    if !(d.is_ascii_punctuation() || d == '\t') || d == '"' {
+        return None;
+    }
+    let after = &rest[d.len_utf8()..];
+    let after = after
+        .strip_prefix("\r\n")
+        .or_else(|| after.strip_prefix('\n'))
+        .or_else(|| after.strip_prefix('\r'))?;
+    Some((d as u8, after))
+}
+
+/// Whether CSV text that starts at the beginning of a record ends inside a
+/// quoted field: the quote that opened it was never closed. Mirrors the
+/// reader's rule that a quote opens a quoted field only at the start of a
+/// field (a quote inside an unquoted field is an ordinary character).
+fn ends_inside_quotes(tail: &[u8], delimiter: u8) -> bool {
+    #[derive(Clone, Copy, PartialEq)]
+    enum S {
+        FieldStart,
+        Unquoted,
+        Quoted,
+        QuoteInQuoted,
+    }
+    let mut s = S::FieldStart;
+    for &b in tail {
+        s = match (s, b) {
+            (S::Quoted, b'"') => S::QuoteInQuoted,
+            (S::Quoted, _) => S::Quoted,
+            (S::QuoteInQuoted, b'"') => S::Quoted,
+            (S::FieldStart, b'"') => S::Quoted,
+            (_, b'\n' | b'\r') => S::FieldStart,
+            (_, d) if d == delimiter => S::FieldStart,
+            _ => S::Unquoted,
+        };
+    }
+    s == S::Quoted
+}
+
+/// How a column writes its numbers, decided per column from its cells and
+/// the file's delimiter (see [`read_table`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum NumberFormat {
+    /// `1234.5`: a point marks decimals, no grouping.
+    #[default]
+    Point,
+    /// `1234,5` or `1.234,5`: a comma marks decimals; points may group thousands.
+    DecimalComma,
+    /// `1,234.5`: commas group thousands; a point marks decimals.
+    ThousandsComma,
+}
+
+impl NumberFormat {
+    /// The number in a cell written in this format, if it holds a finite one.
+    pub fn parse(self, cell: &str) -> Option<f64> {
+        match self {
+            NumberFormat::Point => parse_number(cell),
+            NumberFormat::DecimalComma => {
+                let t = cell.trim();
+                if !(decimal_comma_number(t) || plain_integer(t)) {
+                    return parse_number(t);
+                }
+                parse_number(&t.replace('.', "").replace(',', "."))
+            }
+            NumberFormat::ThousandsComma => {
+                let t = cell.trim();
+                if thousands_comma_number(t) {
+                    parse_number(&t.replace(',', ""))
+                } else {
+                    parse_number(t)
                 }
             }
-            b'\n' if !in_quote && !prev_cr => row += 1,
-            b'\r' if !in_quote => row += 1,
-            _ => {}
         }
-        prev_cr = b == b'\r';
     }
-    in_quote.then_some(opened_at)
+}
+
+fn split_sign(t: &str) -> &str {
+    t.strip_prefix(['+', '-']).unwrap_or(t)
+}
+
+fn all_digits(s: &str) -> bool {
+    !s.is_empty() && s.bytes().all(|b| b.is_ascii_digit())
+}
+
+fn plain_integer(t: &str) -> bool {
+    all_digits(split_sign(t))
+}
+
+/// `d{1,3}(S ddd)+`: an integer with groups of three digits after `sep`.
+fn grouped_integer(s: &str, sep: char) -> bool {
+    let mut parts = s.split(sep);
+    let first = parts.next().unwrap_or("");
+    let mut groups = 0;
+    for p in parts {
+        if p.len() != 3 || !all_digits(p) {
+            return false;
+        }
+        groups += 1;
+    }
+    groups > 0 && (1..=3).contains(&first.len()) && all_digits(first)
+}
+
+/// `1234,5`, `-0,25` or `1.234,5`: a decimal comma, with optional points
+/// grouping thousands.
+fn decimal_comma_number(t: &str) -> bool {
+    let Some((whole, frac)) = split_sign(t).split_once(',') else {
+        return false;
+    };
+    all_digits(frac) && (all_digits(whole) || grouped_integer(whole, '.'))
+}
+
+/// `1,234` or `-12,345.5`: commas grouping thousands, optional decimals.
+fn thousands_comma_number(t: &str) -> bool {
+    let s = split_sign(t);
+    let (whole, frac) = match s.split_once('.') {
+        Some((w, f)) => (w, Some(f)),
+        None => (s, None),
+    };
+    frac.is_none_or(all_digits) && grouped_integer(whole, ',')
+}
+
+/// Whether a cell looks like a number written with a comma (either way).
+fn comma_number(t: &str) -> bool {
+    decimal_comma_number(t) || thousands_comma_number(t)
+}
+
+/// Decide how a column writes numbers. A comma inside a number is read only
+/// where the file leaves no doubt (common practice of spreadsheet exports,
+/// stated in the user guide):
+/// * semicolon-delimited files come from locales whose decimal mark is the
+///   comma: a column whose every cell is an integer or `1234,5` / `1.234,5`
+///   (and at least one has a comma) uses decimal commas;
+/// * comma-delimited files: a quoted `1,234.5` can only group thousands;
+/// * tab-delimited files: decimal commas when some comma is followed by other
+///   than three digits, thousands when some cell also has a decimal point or
+///   two groups; a column of cells like `1,234` alone stays unread.
+fn number_format(cells: &[String], delimiter: u8) -> NumberFormat {
+    let present = || cells.iter().map(|c| c.trim()).filter(|c| !is_missing(c));
+    if !present().any(|c| c.contains(',')) {
+        return NumberFormat::Point;
+    }
+    let decimal_ok = || present().all(|c| decimal_comma_number(c) || plain_integer(c));
+    let thousands_ok = || {
+        present()
+            .all(|c| thousands_comma_number(c) || (!c.contains(',') && parse_number(c).is_some()))
+    };
+    match delimiter {
+        b';' if decimal_ok() => NumberFormat::DecimalComma,
+        b',' if thousands_ok() => NumberFormat::ThousandsComma,
+        b'\t' => {
+            let decimal_sure = present().any(|c| {
+                decimal_comma_number(c)
+                    && c.split_once(',')
+                        .is_some_and(|(w, f)| f.len() != 3 || w.contains('.'))
+            });
+            let thousands_sure = present().any(|c| {
+                thousands_comma_number(c) && (c.contains('.') || c.matches(',').count() > 1)
+            });
+            if decimal_sure && decimal_ok() && !thousands_sure {
+                NumberFormat::DecimalComma
+            } else if thousands_sure && thousands_ok() && !decimal_sure {
+                NumberFormat::ThousandsComma
+            } else {
+                NumberFormat::Point
+            }
+        }
+        _ => NumberFormat::Point,
+    }
+}
+
+/// Why a cell is not a number: what is wrong, and advice when the cell
+/// suggests a likely cause (a comma inside a number, an unknown missing-value
+/// marker), for error messages.
+pub fn number_problem(cell: &str) -> (String, Option<String>) {
+    let t = cell.trim();
+    let lower = t.to_ascii_lowercase();
+    if comma_number(t) {
+        (
+            format!("\"{t}\" is a number written with a comma"),
+            Some(
+                "pairsight reads a decimal comma in files delimited by semicolons, and commas that group thousands in quoted cells of comma-delimited files; write the number with a decimal point and no grouping, or save the file with semicolons between columns"
+                    .to_string(),
+            ),
+        )
+    } else if [
+        "n/a", "#n/a", "-", "--", "?", "missing", "unknown", "none", "nil", "n.a.", "#null!",
+    ]
+    .contains(&lower.as_str())
+    {
+        (
+            format!("\"{t}\" is not a number"),
+            Some(
+                "the missing-value markers are an empty cell, NA, NaN, \".\" and null; if the value is missing, write NA or leave the cell empty"
+                    .to_string(),
+            ),
+        )
+    } else if t.parse::<f64>().is_ok() {
+        (format!("\"{t}\" is not a finite number"), None)
+    } else {
+        (format!("\"{t}\" is not a number"), None)
+    }
 }
 
 /// Read a cohort file from its bytes.
+///
+/// Rows are numbered as a spreadsheet shows a file without blank lines: the
+/// header is row 1 and blank lines are not counted; where the line in the
+/// file differs (multi-line notes, blank lines), messages give both.
 pub fn read_table(bytes: &[u8]) -> Result<Table> {
-    let (text, encoding) = decode(bytes);
+    let Decoded {
+        text,
+        encoding,
+        notice,
+    } = decode(bytes)?;
+    let mut notices: Vec<String> = notice.into_iter().collect();
+    let text = text.strip_prefix('\u{FEFF}').unwrap_or(&text);
     if text.trim().is_empty() {
         return Err(Error::data(
             None,
@@ -280,44 +597,65 @@ pub fn read_table(bytes: &[u8]) -> Result<Table> {
             "the file is empty; expected a header line naming the columns, then one row per patient",
         ));
     }
-    if let Some(row) = unterminated_quote(&text) {
-        return Err(Error::data(
-            Some(row),
-            None,
-            "a quoted field opened here is never closed; add the closing double quote (\") or remove the opening one",
-        ));
-    }
-    let delimiter = detect_delimiter(&text);
+    let (delimiter, text) = match separator_line(text) {
+        Some((d, rest)) => {
+            notices.push(format!(
+                "the first line \"sep={}\" names the delimiter; it was followed and skipped",
+                d as char
+            ));
+            (d, rest)
+        }
+        None => (detect_delimiter(text), text),
+    };
     let mut reader = csv::ReaderBuilder::new()
         .delimiter(delimiter)
         .flexible(true)
         .has_headers(false)
         .from_reader(text.as_bytes());
-    let mut records = reader.records();
-    let header = match records.next() {
-        Some(Ok(h)) => h,
-        Some(Err(e)) => {
-            return Err(Error::data(
-                Some(1),
-                None,
-                format!("unreadable header: {e}"),
-            ))
-        }
-        None => return Err(Error::data(None, None, "the file has no header line")),
+    let mut rec = csv::StringRecord::new();
+    let unreadable =
+        |row: usize, e: csv::Error| Error::data(Some(row), None, format!("unreadable row: {e}"));
+    let open_quote = |row: usize| {
+        Error::data(
+            Some(row),
+            None,
+            "a quoted field opened in this row is never closed; add the closing double quote (\") or remove the opening one",
+        )
     };
-    let names: Vec<String> = header.iter().map(|h| h.trim().to_string()).collect();
+    let start_of = |rec: &csv::StringRecord| rec.position().map_or(0, |p| p.byte() as usize);
+    match reader.read_record(&mut rec) {
+        Ok(true) => {}
+        Ok(false) => return Err(Error::data(None, None, "the file has no header line")),
+        Err(e) => return Err(unreadable(1, e)),
+    }
+    // A header that runs to the end of the file may hold an open quote.
+    if reader.position().byte() as usize >= text.len()
+        && ends_inside_quotes(&text.as_bytes()[start_of(&rec)..], delimiter)
+    {
+        return Err(open_quote(1));
+    }
+    let names: Vec<String> = rec.iter().map(|h| h.trim().to_string()).collect();
+    if names.len() == 1 {
+        let shown: String = names[0].chars().take(60).collect();
+        return Err(Error::data(
+            Some(1),
+            None,
+            format!(
+                "the header holds a single column (\"{shown}\"); pairsight reads files whose columns are separated by commas, semicolons or tabs"
+            ),
+        ));
+    }
+    let mut first_of: std::collections::BTreeMap<&str, usize> = std::collections::BTreeMap::new();
     for (i, n) in names.iter().enumerate() {
-        if n.is_empty() {
-            return Err(Error::data(
-                Some(1),
-                None,
-                format!(
-                    "column {} has an empty header; give every column a name",
-                    i + 1
-                ),
-            ));
+        // An unnamed last column may be the empty field after a delimiter
+        // that ends every line; decided once its cells are read.
+        if n.is_empty() && i + 1 < names.len() {
+            return Err(empty_header(i));
         }
-        if let Some(j) = names[..i].iter().position(|m| m == n) {
+        if n.is_empty() {
+            continue;
+        }
+        if let Some(j) = first_of.insert(n, i) {
             return Err(Error::data(
                 Some(1),
                 Some(n),
@@ -330,19 +668,42 @@ pub fn read_table(bytes: &[u8]) -> Result<Table> {
         }
     }
     let mut cells: Vec<Vec<String>> = vec![Vec::new(); names.len()];
-    for (k, rec) in records.enumerate() {
-        let row = k + 2;
-        let rec = rec.map_err(|e| Error::data(Some(row), None, format!("unreadable row: {e}")))?;
+    let mut row = 1;
+    let mut last = (text.len(), 1);
+    loop {
+        match reader.read_record(&mut rec) {
+            Ok(true) => {}
+            Ok(false) => break,
+            Err(e) => return Err(unreadable(row + 1, e)),
+        }
         // A blank line (one empty field) is skipped, as spreadsheets write them.
-        if rec.len() == 1 && rec[0].trim().is_empty() && names.len() > 1 {
+        if rec.len() == 1 && rec[0].trim().is_empty() {
             continue;
         }
+        row += 1;
+        let start = start_of(&rec);
         if rec.len() != names.len() {
+            if rec.len() < names.len() && ends_inside_quotes(&text.as_bytes()[start..], delimiter) {
+                return Err(open_quote(row));
+            }
+            let line = rec.position().map_or(0, |p| p.line() as usize);
+            let at_line = if line > row {
+                format!(" (line {line} of the file)")
+            } else {
+                String::new()
+            };
+            let why = match rec.iter().find(|f| f.contains(['\n', '\r'])) {
+                Some(f) => format!(
+                    "; a quoted field in it spans {} lines, so a closing double quote (\") is probably missing",
+                    f.lines().count().max(2)
+                ),
+                None => "; check for a stray delimiter or a missing quote".to_string(),
+            };
             return Err(Error::data(
                 Some(row),
                 None,
                 format!(
-                    "this row has {} fields but the header has {}; check for a stray delimiter or a missing quote",
+                    "this row{at_line} has {} fields but the header has {}{why}",
                     rec.len(),
                     names.len()
                 ),
@@ -350,6 +711,25 @@ pub fn read_table(bytes: &[u8]) -> Result<Table> {
         }
         for (col, field) in cells.iter_mut().zip(rec.iter()) {
             col.push(field.to_string());
+        }
+        last = (start, row);
+    }
+    // A quote left open swallows the rest of the file into the last record.
+    if ends_inside_quotes(&text.as_bytes()[last.0..], delimiter) {
+        return Err(open_quote(last.1));
+    }
+    let mut names = names;
+    if names.last().is_some_and(|n| n.is_empty()) {
+        let last = names.len() - 1;
+        if cells[last].iter().all(|c| c.trim().is_empty()) {
+            names.pop();
+            cells.pop();
+            notices.push(
+                "every line ends with a delimiter; the resulting empty, unnamed last column was left out"
+                    .to_string(),
+            );
+        } else {
+            return Err(empty_header(last));
         }
     }
     if cells.first().is_none_or(|c| c.is_empty()) {
@@ -363,22 +743,59 @@ pub fn read_table(bytes: &[u8]) -> Result<Table> {
         .into_iter()
         .zip(cells)
         .map(|(name, cells)| {
-            let kind = infer_kind(&cells);
-            Column { name, cells, kind }
+            let format = number_format(&cells, delimiter);
+            match format {
+                NumberFormat::Point => {}
+                NumberFormat::DecimalComma => notices.push(format!(
+                    "column \"{name}\": numbers use a decimal comma (\"1,5\" is read as 1.5)"
+                )),
+                NumberFormat::ThousandsComma => notices.push(format!(
+                    "column \"{name}\": commas group thousands (\"1,250.5\" is read as 1250.5)"
+                )),
+            }
+            let kind = infer_kind_as(&cells, format);
+            Column {
+                name,
+                cells,
+                kind,
+                format,
+            }
         })
         .collect();
     Ok(Table {
         columns,
         encoding,
         delimiter: delimiter as char,
+        notices,
     })
+}
+
+fn empty_header(i: usize) -> Error {
+    Error::data(
+        Some(1),
+        None,
+        format!(
+            "column {} has an empty header; give every column a name",
+            i + 1
+        ),
+    )
+}
+
+/// Infer a column's kind from its cells, numbers written with a point.
+pub fn infer_kind(cells: &[String]) -> Kind {
+    infer_kind_as(cells, NumberFormat::Point)
 }
 
 /// Infer a column's kind from its cells (common practice, stated in the user
 /// guide): all numbers -> binary if only 0/1, else numeric; otherwise text when
 /// values are long (mean over 40 characters) or mostly distinct with more than
 /// 50 levels, else categorical.
-pub fn infer_kind(cells: &[String]) -> Kind {
+///
+/// A column in which at least four cells in five are numbers (or look like
+/// numbers: a comma inside, out of range) is numeric too, so that the cells
+/// that are not numbers are reported, by row, when the column is used, rather
+/// than silently turning each number into a category of its own.
+pub fn infer_kind_as(cells: &[String], format: NumberFormat) -> Kind {
     let present: Vec<&str> = cells
         .iter()
         .map(|c| c.trim())
@@ -387,9 +804,21 @@ pub fn infer_kind(cells: &[String]) -> Kind {
     if present.is_empty() {
         return Kind::Numeric;
     }
-    let numbers: Option<Vec<f64>> = present.iter().map(|c| parse_number(c)).collect();
-    if let Some(xs) = numbers {
-        return if xs.iter().all(|&x| x == 0.0 || x == 1.0) {
+    let mut numbers = 0usize;
+    let mut near = 0usize;
+    let mut zero_one = true;
+    for c in &present {
+        match format.parse(c) {
+            Some(x) => {
+                numbers += 1;
+                zero_one &= x == 0.0 || x == 1.0;
+            }
+            None if comma_number(c) || c.parse::<f64>().is_ok_and(|x| x.is_infinite()) => near += 1,
+            None => {}
+        }
+    }
+    if (numbers + near) * 5 >= present.len() * 4 {
+        return if zero_one && numbers == present.len() {
             Kind::Binary
         } else {
             Kind::Numeric
@@ -483,6 +912,205 @@ mod tests {
         let t = read_table(b"patient_id,age\n1,2\n").unwrap();
         let e = t.column("patient_ids").unwrap_err().to_string();
         assert!(e.contains("did you mean \"patient_id\""), "{e}");
+    }
+
+    fn cell(t: &Table, col: usize, row: usize) -> &str {
+        &t.columns[col].cells[row]
+    }
+
+    #[test]
+    fn quotes_inside_an_unquoted_field_are_ordinary_characters() {
+        // The comma after "tall" splits the row: three fields, a ragged row.
+        assert!(read_table(b"id,note\n1,5'11\" tall, said \"no\"\n2,x\n").is_err());
+        let t = read_table(b"id,note\n1,5'11\" tall said \"no\"\n2,x\n").unwrap();
+        assert_eq!(cell(&t, 1, 0), "5'11\" tall said \"no\"");
+        let t = read_table(b"id,note\n1,\"say \"\"hi\"\", then go\"\n2,x\n").unwrap();
+        assert_eq!(cell(&t, 1, 0), "say \"hi\", then go");
+    }
+
+    #[test]
+    fn an_open_quote_is_found_in_the_last_row_and_the_header() {
+        let e = err_of(b"a,b\n1,2\n3,\"open, never closed\n").to_string();
+        assert!(e.contains("row 3") && e.contains("never closed"), "{e}");
+        let e = err_of(b"a,\"b\n1,2\n").to_string();
+        assert!(e.contains("row 1") && e.contains("never closed"), "{e}");
+        // A quote that a later quote closes makes a long ragged row instead.
+        let e = err_of(b"a,b\n1,\"open\n2,\"x\",y\n3,4\n").to_string();
+        assert!(e.contains("row 2") && e.contains("probably missing"), "{e}");
+    }
+
+    #[test]
+    fn rows_skip_blank_lines_and_messages_give_the_file_line() {
+        let e = err_of(b"a,b\n\n1,2\n   \n\"x\ny\",3\n4\n").to_string();
+        // Row 4 (header, "1,2", the two-line note, then the short row), line 7.
+        assert!(
+            e.contains("row 4") && e.contains("line 7 of the file"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn utf16_with_a_byte_order_mark_is_read_and_without_one_refused() {
+        let text = "id,note\n1,caf\u{e9}\n";
+        let le: Vec<u8> = [0xFF, 0xFE]
+            .into_iter()
+            .chain(text.encode_utf16().flat_map(|u| u.to_le_bytes()))
+            .collect();
+        let be: Vec<u8> = [0xFE, 0xFF]
+            .into_iter()
+            .chain(text.encode_utf16().flat_map(|u| u.to_be_bytes()))
+            .collect();
+        for (bytes, name) in [(le.clone(), "UTF-16LE"), (be, "UTF-16BE")] {
+            let t = read_table(&bytes).unwrap();
+            assert_eq!((t.encoding, cell(&t, 1, 0)), (name, "caf\u{e9}"));
+        }
+        let e = err_of(&le[2..]).to_string();
+        assert!(
+            e.contains("UTF-16") && e.contains("save it as UTF-8"),
+            "{e}"
+        );
+        // A stray null byte in UTF-8 text is not UTF-16.
+        assert!(read_table(b"id,note\n1,a\x00b\n2,c\n").is_ok());
+    }
+
+    #[test]
+    fn utf8_with_a_few_latin1_bytes_keeps_its_utf8() {
+        let t = read_table("id,ward\n1,M\u{e9}decine\n2,caf\u{e9}\n".as_bytes()).unwrap();
+        assert_eq!(t.encoding, "UTF-8");
+        let mut mixed = "id,ward\n1,M\u{e9}decine\n".as_bytes().to_vec();
+        mixed.extend_from_slice(b"2,caf\xe9 \x93ok\x94\n");
+        let t = read_table(&mixed).unwrap();
+        assert_eq!(t.encoding, "UTF-8 with Windows-1252 bytes");
+        assert_eq!(cell(&t, 1, 0), "M\u{e9}decine");
+        assert_eq!(cell(&t, 1, 1), "caf\u{e9} \u{201c}ok\u{201d}");
+        assert!(
+            t.notices[0].contains("3 byte(s), the first at line 3"),
+            "{:?}",
+            t.notices
+        );
+        let t = read_table(b"id,ward\n1,M\xe9decine\n").unwrap();
+        assert_eq!(
+            (t.encoding, cell(&t, 1, 0)),
+            ("Windows-1252", "M\u{e9}decine")
+        );
+    }
+
+    #[test]
+    fn a_sep_line_names_the_delimiter() {
+        let t = read_table(b"sep=;\r\na;b\r\n1,5;2\r\n").unwrap();
+        assert_eq!((t.delimiter, t.n_cols(), t.n_rows()), (';', 2, 1));
+        assert!(t.notices[0].contains("sep=;"));
+        // Not a sep line: an ordinary header that happens to start so.
+        let t = read_table(b"sep=x,b\n1,2\n").unwrap();
+        assert_eq!(t.columns[0].name, "sep=x");
+    }
+
+    #[test]
+    fn a_trailing_delimiter_on_every_line_is_dropped() {
+        let t = read_table(b"a,b,\n1,2,\n3,4,\n").unwrap();
+        assert_eq!(t.n_cols(), 2);
+        assert!(t.notices[0].contains("ends with a delimiter"));
+        let e = err_of(b"a,b,\n1,2,x\n").to_string();
+        assert!(e.contains("column 3 has an empty header"), "{e}");
+    }
+
+    #[test]
+    fn a_single_column_is_refused_with_the_delimiters_read() {
+        let e = err_of(b"a|b|c\n1|2|3\n").to_string();
+        assert!(
+            e.contains("single column") && e.contains("semicolons or tabs"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn duplicate_headers_among_thousands_of_columns() {
+        let mut header: Vec<String> = (0..20_000).map(|i| format!("c{i}")).collect();
+        header[19_999] = "c17".to_string();
+        let text = format!("{}\n{}\n", header.join(","), vec!["1"; 20_000].join(","));
+        let e = err_of(text.as_bytes()).to_string();
+        assert!(e.contains("columns 18 and 20000"), "{e}");
+    }
+
+    #[test]
+    fn decimal_commas_in_semicolon_files() {
+        let t =
+            read_table(b"id;crea;los;code\n1;97,5;7;1,2\n2;1.165,5;-0,25;x\n3;NA;3;4\n").unwrap();
+        assert_eq!(t.columns[1].format, NumberFormat::DecimalComma);
+        assert_eq!(t.columns[1].number(0), Some(97.5));
+        assert_eq!(t.columns[1].number(1), Some(1165.5));
+        assert_eq!(t.columns[1].kind, Kind::Numeric);
+        assert_eq!(t.columns[2].number(1), Some(-0.25));
+        // A column with text in it keeps its cells as text.
+        assert_eq!(t.columns[3].format, NumberFormat::Point);
+        // The cells themselves are never rewritten.
+        assert_eq!(cell(&t, 1, 1), "1.165,5");
+    }
+
+    #[test]
+    fn grouped_thousands_in_comma_files() {
+        let t =
+            read_table(b"id,crea,odd\n1,\"1,165.5\",\"7,5\"\n2,97.5,\"1,2\"\n3,\"-12,345\",3\n")
+                .unwrap();
+        assert_eq!(t.columns[1].format, NumberFormat::ThousandsComma);
+        assert_eq!(
+            (0..3).map(|r| t.columns[1].number(r)).collect::<Vec<_>>(),
+            [Some(1165.5), Some(97.5), Some(-12345.0)]
+        );
+        // "7,5" cannot group thousands: not read, but the column is numeric
+        // so that using it names the cell.
+        assert_eq!(t.columns[2].format, NumberFormat::Point);
+        assert_eq!(t.columns[2].kind, Kind::Numeric);
+        assert_eq!(t.columns[2].number(0), None);
+    }
+
+    #[test]
+    fn tab_files_read_commas_only_when_unambiguous() {
+        let t = read_table(b"id\ta\tb\tc\n1\t7,5\t1,234.5\t1,234\n2\t3\t2,000\t5,678\n").unwrap();
+        let f: Vec<NumberFormat> = t.columns.iter().map(|c| c.format).collect();
+        assert_eq!(
+            f,
+            [
+                NumberFormat::Point,
+                NumberFormat::DecimalComma,
+                NumberFormat::ThousandsComma,
+                NumberFormat::Point
+            ]
+        );
+    }
+
+    #[test]
+    fn mostly_numeric_columns_are_numeric() {
+        let cells = |v: &[&str]| v.iter().map(|s| s.to_string()).collect::<Vec<_>>();
+        assert_eq!(
+            infer_kind(&cells(&["1", "2", "3", "4", "seventy"])),
+            Kind::Numeric
+        );
+        assert_eq!(
+            infer_kind(&cells(&["1", "2", "3", "x", "y"])),
+            Kind::Categorical
+        );
+        assert_eq!(
+            infer_kind(&cells(&["0", "1", "1", "0", "N/A"])),
+            Kind::Numeric
+        );
+        assert_eq!(infer_kind(&cells(&["97,5", "12,25"])), Kind::Numeric);
+        assert_eq!(infer_kind(&cells(&["1", "x"])), Kind::Categorical);
+        assert_eq!(infer_kind(&cells(&["1", "2", "3", "1e400"])), Kind::Numeric);
+    }
+
+    #[test]
+    fn number_problems_say_why() {
+        assert!(number_problem("7,5").1.unwrap().contains("decimal point"));
+        assert!(number_problem(" N/A ").1.unwrap().contains("write NA"));
+        assert_eq!(
+            number_problem("1e400").0,
+            "\"1e400\" is not a finite number"
+        );
+        assert_eq!(
+            number_problem("seventy"),
+            ("\"seventy\" is not a number".to_string(), None)
+        );
     }
 
     #[test]

@@ -10,7 +10,7 @@
 
 use crate::balance::TermInfo;
 pub use crate::balance::TermKind;
-use crate::ingest::{is_missing, parse_number, Kind, Table};
+use crate::ingest::{is_missing, number_problem, parse_number, Kind, Table};
 use crate::study::{parse_term, Columns, TermSpec};
 use crate::{Error, Result};
 use ndarray::Array2;
@@ -123,24 +123,38 @@ impl Cohort {
     pub fn new(mut table: Table, columns: &Columns) -> Result<Cohort> {
         for (name, kind) in &columns.kinds {
             let pos = table.position(name).ok_or_else(|| {
+                let names: Vec<&str> = table.columns.iter().map(|c| c.name.as_str()).collect();
+                let hint = crate::ingest::nearest(name, &names)
+                    .map(|n| format!("; did you mean \"{n}\"?"))
+                    .unwrap_or_default();
                 Error::study(
                     "columns.kinds",
-                    format!("names \"{name}\", which is not a column of the cohort file"),
+                    format!("names \"{name}\", which is not a column of the cohort file{hint}"),
                 )
             })?;
             table.columns[pos].kind = *kind;
         }
-        for name in columns
-            .outcomes
-            .iter()
-            .chain(&columns.covariates)
-            .chain(columns.notes.iter())
-        {
-            table.column(name)?;
+        let keyed = [
+            ("columns.outcomes", &columns.outcomes),
+            ("columns.covariates", &columns.covariates),
+        ];
+        for (key, names) in keyed {
+            for name in names {
+                named_column(&table, key, name)?;
+            }
         }
-        let id_col = table.column(&columns.id)?;
-        let group_col = table.column(&columns.group)?;
-        let levels = group_col.levels();
+        if let Some(n) = &columns.notes {
+            named_column(&table, "columns.notes", n)?;
+        }
+        let id_col = named_column(&table, "columns.id", &columns.id)?;
+        let group_col = named_column(&table, "columns.group", &columns.group)?;
+        // "1" and "1.0" (or " 1 ") are one group value, written two ways.
+        let mut levels: Vec<String> = Vec::new();
+        for l in group_col.levels() {
+            if !levels.iter().any(|k| same_value(k, &l)) {
+                levels.push(l);
+            }
+        }
         if levels.len() != 2 {
             let shown: Vec<String> = levels.iter().take(6).map(|l| format!("\"{l}\"")).collect();
             return Err(Error::data(
@@ -205,7 +219,7 @@ impl Cohort {
             }
             rows.push(r);
             ids.push(id.to_string());
-            treated.push(g.trim() == treated_value);
+            treated.push(same_value(g, &treated_value));
         }
         let n_t = treated.iter().filter(|&&t| t).count();
         if n_t == 0 || n_t == treated.len() {
@@ -253,12 +267,16 @@ impl Cohort {
                 if is_missing(c) {
                     Ok(None)
                 } else {
-                    parse_number(c).map(Some).ok_or_else(|| {
-                        Error::data(
-                            Some(r + 2),
-                            Some(column),
-                            format!("outcome value \"{}\" is not a number", c.trim()),
-                        )
+                    col.parse(c).map(Some).ok_or_else(|| {
+                        Error::data(Some(r + 2), Some(column), {
+                            let (what, advice) = number_problem(c);
+                            match advice {
+                                Some(a) => format!("outcome value {what}; {a}"),
+                                None => format!(
+                                    "outcome value {what}; fix the cell or mark it missing (NA)"
+                                ),
+                            }
+                        })
                     })
                 }
             })
@@ -297,7 +315,7 @@ impl Cohort {
                 format!("\"{name}\" is not a note feature of this study; {hint}"),
             ));
         }
-        let col = self.table.column(name)?;
+        let col = named_column(&self.table, "score_terms", name)?;
         let cells: Vec<&str> = self.rows.iter().map(|&r| col.cells[r].trim()).collect();
         match col.kind {
             Kind::Numeric | Kind::Binary => {
@@ -309,13 +327,17 @@ impl Cohort {
                         missing[i] = 1.0;
                         v.push(f64::NAN);
                     } else {
-                        let x = parse_number(c).ok_or_else(|| {
+                        let x = col.parse(c).ok_or_else(|| {
                             Error::data(
                                 Some(self.rows[i] + 2),
                                 Some(name),
-                                format!(
-                                    "\"{c}\" is not a number in a numeric column; fix the cell or set columns.kinds.{name} = \"categorical\""
-                                ),
+                                {
+                                    let (what, advice) = number_problem(c);
+                                    let advice = advice.unwrap_or_else(|| format!(
+                                        "fix the cell, or set columns.kinds.{name} = \"categorical\" if the column holds categories"
+                                    ));
+                                    format!("{what} in a numeric column; {advice}")
+                                },
                             )
                         })?;
                         sum += x;
@@ -460,7 +482,10 @@ impl Cohort {
     pub fn exact_keys(&self, columns: &[String]) -> Result<Vec<u32>> {
         let cells: Vec<Vec<&str>> = columns
             .iter()
-            .map(|c| self.cells(c))
+            .map(|c| {
+                named_column(&self.table, "exact", c)?;
+                self.cells(c)
+            })
             .collect::<Result<_>>()?;
         let mut keys: BTreeMap<Vec<&str>, u32> = BTreeMap::new();
         let mut out = Vec::with_capacity(self.len());
@@ -474,6 +499,24 @@ impl Cohort {
         }
         Ok(out)
     }
+}
+
+/// A column a study file names under `key`; a missing one is an error about
+/// that column which also says where the study file names it, and suggests
+/// the nearest column.
+fn named_column<'a>(table: &'a Table, key: &str, name: &str) -> Result<&'a crate::ingest::Column> {
+    table.column(name).map_err(|e| match e {
+        Error::Data {
+            row,
+            column,
+            message,
+        } => Error::Data {
+            row,
+            column,
+            message: format!("the study file names it in {key}, but there is {}", message),
+        },
+        other => other,
+    })
 }
 
 fn dedup_fills(fills: &mut Vec<Fill>) {
@@ -564,6 +607,62 @@ mod tests {
         assert!(e.to_string().contains("\"yes\" does not occur"), "{e}");
         let e = Cohort::new(read_table(b"id,g\n1,0\n1,1\n").unwrap(), &bare).unwrap_err();
         assert!(e.to_string().contains("rows 2 and 3"), "{e}");
+    }
+
+    #[test]
+    fn group_values_written_two_ways_are_one_value() {
+        let bare = Columns {
+            outcomes: vec![],
+            covariates: vec![],
+            ..cols()
+        };
+        let c = Cohort::new(
+            read_table(b"id,g\n1,1\n2,1.0\n3,0\n4, 0.0 \n").unwrap(),
+            &bare,
+        )
+        .unwrap();
+        assert_eq!(c.treated, [true, true, false, false]);
+    }
+
+    #[test]
+    fn columns_a_study_names_but_the_file_lacks_say_where() {
+        let mut c = cols();
+        c.covariates = vec!["agee".into()];
+        let e = Cohort::new(read_table(CSV).unwrap(), &c).unwrap_err();
+        let text = e.to_string();
+        assert!(
+            matches!(&e, Error::Data { column: Some(c), .. } if c == "agee")
+                && text.contains("names it in columns.covariates")
+                && text.contains("did you mean \"age\""),
+            "{text}"
+        );
+        let ok = Cohort::new(read_table(CSV).unwrap(), &cols()).unwrap();
+        let e = ok.model_terms(&["wrd".into()]).unwrap_err().to_string();
+        assert!(e.contains("names it in score_terms"), "{e}");
+        let e = ok.exact_keys(&["wrad".into()]).unwrap_err().to_string();
+        assert!(e.contains("names it in exact"), "{e}");
+    }
+
+    #[test]
+    fn cells_that_are_not_numbers_are_named_with_a_reason() {
+        let csv = b"id,g,age,y\na,1,70,1\nb,0,N/A,0\nc,0,60,1\nd,1,80,0\ne,0,65,1\n";
+        let c = Cohort::new(read_table(csv).unwrap(), &cols_age_only()).unwrap();
+        let e = c.model_terms(&["age".into()]).unwrap_err().to_string();
+        assert!(
+            e.contains("row 3") && e.contains("\"N/A\"") && e.contains("write NA"),
+            "{e}"
+        );
+        let csv = b"id,g,age,y\na,1,70,1\nb,0,60,\"0,5\"\nc,0,60,1\nd,1,80,0\ne,0,65,1\n";
+        let c = Cohort::new(read_table(csv).unwrap(), &cols_age_only()).unwrap();
+        let e = c.outcome("y").unwrap_err().to_string();
+        assert!(e.contains("row 3") && e.contains("\"0,5\""), "{e}");
+    }
+
+    fn cols_age_only() -> Columns {
+        Columns {
+            covariates: vec!["age".into()],
+            ..cols()
+        }
     }
 
     #[test]

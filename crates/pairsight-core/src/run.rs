@@ -65,6 +65,17 @@ pub struct OutcomeEffect {
     pub notes: Vec<String>,
 }
 
+/// How the cohort file was read.
+#[derive(Debug, Clone, Serialize, PartialEq)]
+pub struct FileReading {
+    /// Encoding the bytes were read as.
+    pub encoding: String,
+    /// Delimiter, as a display name: "comma", "semicolon" or "tab".
+    pub delimiter: String,
+    /// Automatic decisions worth knowing (encoding fallback, number formats).
+    pub notices: Vec<String>,
+}
+
 /// Counts and diagnostics of one design run (`summary.json`).
 #[derive(Debug, Clone, Serialize, PartialEq)]
 pub struct Summary {
@@ -72,6 +83,8 @@ pub struct Summary {
     pub version: String,
     /// Design name.
     pub design: String,
+    /// How the cohort file was read.
+    pub cohort_file: FileReading,
     /// Data rows in the file.
     pub rows_read: usize,
     /// Rows used.
@@ -235,7 +248,26 @@ impl Analysis {
             .cohort
             .model_terms(&design.score_terms)
             .map_err(in_design)?;
-        let fit = fit_logistic(x.values.view(), treated, &LogitParams::default())?;
+        let in_design_any = |e: Error| match e {
+            Error::Compute { message } => {
+                Error::compute(format!("design \"{}\": {message}", design.name))
+            }
+            Error::Param { name, message } => {
+                Error::compute(format!("design \"{}\": {name}: {message}", design.name))
+            }
+            other => in_design(other),
+        };
+        let mut fit = fit_logistic(x.values.view(), treated, &LogitParams::default())
+            .map_err(in_design_any)?;
+        // The fit knows its terms by position; the user knows them by name.
+        for w in &mut fit.warnings {
+            for (j, name) in x.names.iter().enumerate().rev() {
+                let at = format!("score term column {j} ");
+                if w.contains(&at) {
+                    *w = w.replace(&at, &format!("score term \"{name}\" "));
+                }
+            }
+        }
         let exact = if design.exact.is_empty() {
             None
         } else {
@@ -256,8 +288,43 @@ impl Analysis {
                 distance: distance.as_ref(),
             },
             &params,
-        )?;
+        )
+        .map_err(in_design_any)?;
         drop(distance);
+        if matching.sets.is_empty() {
+            let mut why = Vec::new();
+            let mut fix = Vec::new();
+            if matching.dropped_by_caliper > 0 {
+                fix.push("widen the caliper");
+                why.push(format!(
+                    "{} treated units have no comparison unit within the caliper (width {} on the logit score)",
+                    matching.dropped_by_caliper,
+                    matching.caliper_width.map_or("NA".to_string(), output::num)
+                ));
+            }
+            if matching.dropped_by_exact > 0 {
+                fix.push("drop or coarsen the exact columns");
+                why.push(format!(
+                    "{} treated units have no comparison unit that agrees on the exact columns ({})",
+                    matching.dropped_by_exact,
+                    design.exact.join(", ")
+                ));
+            }
+            let why = if why.is_empty() {
+                String::new()
+            } else {
+                format!(": {}", why.join("; "))
+            };
+            return Err(Error::compute(format!(
+                "design \"{}\": no treated unit could be matched{why}; {}",
+                design.name,
+                if fix.is_empty() {
+                    "check that the comparison group has units".to_string()
+                } else {
+                    fix.join(", or ")
+                }
+            )));
+        }
         let ones = vec![1.0; treated.len()];
         let balance = balance::balance_rows(
             self.balance_terms.values.view(),
@@ -270,7 +337,20 @@ impl Analysis {
             .columns
             .outcomes
             .iter()
-            .map(|o| self.outcome_effect(o, design, &matching))
+            .map(|o| {
+                self.outcome_effect(o, design, &matching)
+                    .map_err(|e| match e {
+                        Error::Compute { message } | Error::Param { message, .. }
+                            if !message.starts_with("design ") =>
+                        {
+                            Error::compute(format!(
+                                "design \"{}\", outcome \"{o}\": {message}",
+                                design.name
+                            ))
+                        }
+                        other => other,
+                    })
+            })
             .collect::<Result<Vec<_>>>()?;
         let term_shift = match &self.notes {
             Some(f) => Some(f.term_shift(
@@ -412,6 +492,13 @@ impl Analysis {
             .filter_map(|(v, &t)| v.map(|v| (v, t)))
             .unzip();
         let missing = y.len() - yy.len();
+        if yy.is_empty() {
+            return Err(Error::data(
+                None,
+                Some(name),
+                "every value of this outcome is missing; remove it from columns.outcomes",
+            ));
+        }
         let params = EffectParams {
             comparison_reused: design.reuse,
             ..EffectParams::default()
@@ -497,6 +584,11 @@ impl Analysis {
         Summary {
             version: crate::VERSION.to_string(),
             design: design.name.clone(),
+            cohort_file: FileReading {
+                encoding: self.cohort.table.encoding.to_string(),
+                delimiter: crate::ingest::delimiter_name(self.cohort.table.delimiter),
+                notices: self.cohort.table.notices.clone(),
+            },
             rows_read: self.cohort.table.n_rows(),
             rows_used: self.cohort.len(),
             left_out: self.cohort.left_out.clone(),
@@ -675,3 +767,88 @@ impl DesignRun {
 
 /// The caution that goes with every estimate.
 pub const CAUTION: &str = "A matched comparison estimates an effect only under the assumption of no unmeasured confounding; the sensitivity analysis bounds but does not remove that doubt. These results support study design and need review by qualified people; follow local research-ethics and data-governance rules.";
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A small cohort: eight treated, eight comparison units, ages apart.
+    fn cohort(extra_header: &str, extra: impl Fn(usize) -> String) -> Vec<u8> {
+        let mut s = format!("id,g,age,y{extra_header}\n");
+        for i in 0..16 {
+            let t = i % 2;
+            let age = 50 + i * 3 + t * 2;
+            s.push_str(&format!("p{i},{t},{age},{}{}\n", i % 3 % 2, extra(i)));
+        }
+        s.into_bytes()
+    }
+
+    fn study(design: &str) -> Study {
+        Study::from_toml(&format!(
+            "[columns]\nid = \"id\"\ngroup = \"g\"\ntreated = \"1\"\noutcomes = [\"y\"]\ncovariates = [\"age\"]\n\n[[designs]]\n{design}\n"
+        ))
+        .unwrap()
+    }
+
+    #[test]
+    fn a_design_that_matches_no_one_says_why() {
+        let s = study("name = \"tight\"\nscore_terms = [\"age\"]\ncaliper = 0.000001");
+        let a = Analysis::new(&cohort("", |_| String::new()), s).unwrap();
+        let e = a.run(&a.study.designs[0]).unwrap_err().to_string();
+        assert!(
+            e.contains("design \"tight\"")
+                && e.contains("8 treated units have no comparison unit within the caliper")
+                && e.contains("widen the caliper"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn score_warnings_name_the_term_and_the_file_reading_is_recorded() {
+        let s = study("name = \"d\"\nscore_terms = [\"age\", \"flat\"]\nalgorithm = \"greedy\"");
+        let a = Analysis::new(&cohort(",flat", |_| ",5".to_string()), s).unwrap();
+        let r = a.run(&a.study.designs[0]).unwrap();
+        assert_eq!(
+            r.summary.score_model.warnings,
+            ["score term \"flat\" is constant; it was left out of the score model"]
+        );
+        assert_eq!(r.summary.cohort_file.encoding, "UTF-8");
+        assert_eq!(r.summary.cohort_file.delimiter, "comma");
+    }
+
+    #[test]
+    fn effect_errors_name_the_design_and_the_outcome() {
+        let s = study("name = \"d\"\nscore_terms = [\"age\"]\ncaliper = 0.000001");
+        // Two of the treated units get an exact twin among the comparison
+        // units; the one matched set left is too few for an effect.
+        let mut data = String::from_utf8(cohort("", |_| String::new())).unwrap();
+        data.push_str("twin,0,55,1\n");
+        let a = Analysis::new(data.as_bytes(), s).unwrap();
+        let e = a.run(&a.study.designs[0]).unwrap_err().to_string();
+        assert!(e.contains("design \"d\", outcome \"y\""), "{e}");
+    }
+
+    #[test]
+    fn an_outcome_with_no_values_is_named() {
+        let s = study("name = \"d\"\nscore_terms = [\"age\"]");
+        let data = String::from_utf8(cohort("", |_| String::new()))
+            .unwrap()
+            .lines()
+            .enumerate()
+            .map(|(i, l)| {
+                if i == 0 {
+                    l.to_string()
+                } else {
+                    format!("{},NA", &l[..l.rfind(',').unwrap()])
+                }
+            })
+            .collect::<Vec<_>>()
+            .join("\n");
+        let a = Analysis::new(data.as_bytes(), s).unwrap();
+        let e = a.run(&a.study.designs[0]).unwrap_err().to_string();
+        assert!(
+            e.contains("column \"y\"") && e.contains("every value of this outcome is missing"),
+            "{e}"
+        );
+    }
+}

@@ -174,11 +174,26 @@ impl Study {
         let study: Study = toml::from_str(text).map_err(|e| {
             let at = e
                 .span()
-                .map(|s| format!("line {}", line_of(text, s.start)))
+                .map(|s| {
+                    let line = line_of(text, s.start);
+                    // Name the key written on that line, when there is one.
+                    let key = text
+                        .lines()
+                        .nth(line - 1)
+                        .and_then(|l| l.split_once('='))
+                        .map(|(k, _)| k.trim().trim_matches('"'))
+                        .filter(|k| !k.is_empty() && !k.starts_with('#') && !k.starts_with('['));
+                    match key {
+                        Some(k) => format!("{k} (line {line})"),
+                        None => format!("line {line}"),
+                    }
+                })
                 .unwrap_or_else(|| "file".to_string());
             let msg = e.message().trim().to_string();
             let hint = if msg.contains("unknown field") {
                 "; see docs/study-file.md for the keys each table allows"
+            } else if msg.contains("expected a string") {
+                "; put the value in double quotes, e.g. treated = \"1\""
             } else {
                 ""
             };
@@ -443,6 +458,24 @@ exact = ["ward"]
         .unwrap_err()
         .to_string();
         assert!(e.contains("fastest") && e.contains("greedy"), "{e}");
+    }
+
+    #[test]
+    fn parse_errors_name_the_key_on_their_line() {
+        let e = Study::from_toml(&GOOD.replace("treated = \"1\"", "treated = 1"))
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("treated (line 5)") && e.contains("double quotes"),
+            "{e}"
+        );
+        let e = Study::from_toml(&GOOD.replace("caliper = 0.2", "caliper = 0.2\ncaliper = 0.1"))
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("caliper (line 18)") && e.contains("duplicate"),
+            "{e}"
+        );
     }
 
     #[test]
