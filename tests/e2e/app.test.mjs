@@ -79,8 +79,8 @@ test('the workflow end to end: roles, concepts, two designs, balance, pairs, exp
 
   // Data again: the roles are shown as the study file set them.
   await step(page, 'data');
-  assert.equal(await page.locator('[data-testid="role-select"][data-column="early_plan"]').inputValue(), 'group');
-  assert.equal(await page.locator('[data-testid="role-select"][data-column="admission_note"]').inputValue(), 'notes');
+  assert.equal(await page.locator('[data-testid="role-select"][data-col="early_plan"]').inputValue(), 'group');
+  assert.equal(await page.locator('[data-testid="role-select"][data-col="admission_note"]').inputValue(), 'notes');
   await page.getByTestId('check-roles').click();
   await page.locator('[data-testid="screen"][data-step="notes"]').waitFor();
   await idle(page);
@@ -191,13 +191,13 @@ test('the workflow end to end: roles, concepts, two designs, balance, pairs, exp
 test('settings survive a reload; note text is not stored', async (t) => {
   const { page, log } = await openApp(t, APP_URL);
   await pickFile(page, fixture('small.csv'));
-  await page.locator('[data-testid="role-select"][data-column="age"]').selectOption('covariate');
-  await page.locator('[data-testid="role-select"][data-column="admission_note"]').selectOption('notes');
+  await page.locator('[data-testid="role-select"][data-col="age"]').selectOption('covariate');
+  await page.locator('[data-testid="role-select"][data-col="admission_note"]').selectOption('notes');
   await page.reload();
   await page.getByTestId('core-version').and(page.locator('[data-version]')).waitFor();
   await pickFile(page, fixture('small.csv'));
-  assert.equal(await page.locator('[data-testid="role-select"][data-column="age"]').inputValue(), 'covariate');
-  assert.equal(await page.locator('[data-testid="role-select"][data-column="admission_note"]').inputValue(), 'notes');
+  assert.equal(await page.locator('[data-testid="role-select"][data-col="age"]').inputValue(), 'covariate');
+  assert.equal(await page.locator('[data-testid="role-select"][data-col="admission_note"]').inputValue(), 'notes');
   const stored = await page.evaluate(() => Object.keys(localStorage).map((k) => k + '=' + localStorage.getItem(k)).join('\n'));
   assert.doesNotMatch(stored, /shortness of breath|denies falls|lives alone/i, 'no note text in storage');
   assertQuiet(log);

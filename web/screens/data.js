@@ -284,7 +284,7 @@ function kindSelect(c) {
   const current = store.study?.columns.kinds?.[c.name] ?? '';
   const select = el(
     'select',
-    { 'aria-label': `Kind used for column ${c.name}`, 'data-testid': 'kind-select', 'data-column': c.name },
+    { 'aria-label': `Kind used for column ${c.name}`, 'data-testid': 'kind-select', 'data-col': c.name },
     el('option', { value: '', text: `as inferred (${c.kind})` }),
     KIND_CHOICES.map((k) => el('option', { value: k, text: k })),
   );
@@ -302,7 +302,7 @@ function kindSelect(c) {
 function roleSelect(c) {
   const select = el(
     'select',
-    { 'aria-label': `Role of column ${c.name}`, 'data-testid': 'role-select', 'data-column': c.name },
+    { 'aria-label': `Role of column ${c.name}`, 'data-testid': 'role-select', 'data-col': c.name },
     ROLES.map((r) => el('option', { value: r.id, text: r.label })),
   );
   select.value = roleOf(store.study, c.name);
@@ -313,7 +313,7 @@ function roleSelect(c) {
     changed('study');
     // Other selects may have changed (one id, one group, one notes column).
     for (const other of document.querySelectorAll('[data-testid="role-select"]')) {
-      other.value = roleOf(store.study, other.dataset.column);
+      other.value = roleOf(store.study, other.dataset.col);
     }
     refreshRoles();
   });
@@ -348,7 +348,7 @@ function rolesPanel(onReady) {
     saveStudy();
     changed('study');
     for (const other of document.querySelectorAll('[data-testid="role-select"]')) {
-      other.value = roleOf(store.study, other.dataset.column);
+      other.value = roleOf(store.study, other.dataset.col);
     }
     refreshRoles();
   });

@@ -124,7 +124,7 @@ export function mountPairs(screen) {
     const table = el(
       'table',
       { class: 'columns diff', 'data-testid': 'pair-fields' },
-      el('caption', { text: 'Structured fields (covariates, then outcomes). Differences in SDs of the column over the rows used.' }),
+      el('caption', { text: 'Covariates of the set; differences in SDs of the column over the rows used. Outcomes are not shown while designs are compared, so the choice of design cannot lean on them.' }),
       el(
         'thead',
         {},

@@ -340,7 +340,7 @@ pub struct PairView {
     pub set: usize,
     /// The treated unit, then its comparison units.
     pub units: Vec<PairUnit>,
-    /// Structured fields: covariates, then outcomes.
+    /// Structured fields: the covariates (outcomes are left out).
     pub fields: Vec<FieldDifference>,
 }
 
@@ -433,11 +433,14 @@ pub fn pair(name: &str, set: usize) -> Result<PairView> {
             })
             .collect::<Result<Vec<_>>>()?;
         let only_rows: Vec<usize> = rows.iter().map(|r| r.0).collect();
-        let c = &a.study.columns;
-        let fields = c
+        // Outcomes stay hidden while designs are compared, so the choice of
+        // design cannot lean on them (Rubin 2008, "For objective causal
+        // inference, design trumps analysis").
+        let fields = a
+            .study
+            .columns
             .covariates
             .iter()
-            .chain(c.outcomes.iter())
             .map(|col| field(a, col, &only_rows))
             .collect::<Result<Vec<_>>>()?;
         Ok(PairView { set, units, fields })
