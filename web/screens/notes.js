@@ -45,7 +45,7 @@ export function mountNotes(screen) {
 
   function conceptCard(c, i) {
     const name = el('input', { type: 'text', value: c.name, 'aria-label': `Name of concept ${i + 1}`, 'data-testid': 'concept-name', spellcheck: 'false' });
-    const terms = el('textarea', { rows: '3', 'aria-label': `Terms of concept ${i + 1}, one per line`, 'data-testid': 'concept-terms' });
+    const terms = el('textarea', { rows: String(Math.max(3, c.terms.length + 1)), 'aria-label': `Terms of concept ${i + 1}, one per line`, 'data-testid': 'concept-terms' });
     terms.value = c.terms.join('\n');
     const neg = el('input', { type: 'checkbox', 'data-testid': 'concept-negation' });
     neg.checked = c.negation !== false;

@@ -205,7 +205,7 @@ pub fn prepare(study: Study) -> Result<Prepared> {
         let old_runs = std::mem::take(&mut s.runs);
         if keep_runs {
             for (name, run) in old_runs {
-                if analysis.study.designs.iter().any(|d| *d == run.design) {
+                if analysis.study.designs.contains(&run.design) {
                     s.runs.insert(name, run);
                 }
             }
