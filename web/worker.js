@@ -10,13 +10,56 @@ const core = wasm_bindgen;
 
 // Each method is named after the binding it calls. The ready message lists
 // those this build of the core has, so the page can offer what exists and
-// nothing else (`demo_cohort` arrives with the demo generator).
+// nothing else (`demo_cohort` arrives with the demo generator). A method may
+// return `withTransfer(value, list)` to hand buffers over rather than copy.
 const METHODS = {
   version: () => core.version(),
   missing_markers: () => core.missing_markers(),
   summarize_csv: ({ bytes }) => core.summarize_csv(new Uint8Array(bytes)),
-  demo_cohort: ({ seed }) => core.demo_cohort(seed),
+  demo_cohort: () => core.demo_cohort(),
+  demo_study: () => core.demo_study(),
+  session_open: ({ bytes }, progress) => {
+    progress(0, 1, 'reading');
+    return core.session_open(new Uint8Array(bytes));
+  },
+  session_levels: ({ column, limit }) => core.session_levels(column, limit ?? 50),
+  session_prepare: ({ study }, progress) => {
+    progress(0, 1, 'note features');
+    return core.session_prepare(study);
+  },
+  session_run: ({ name }, progress) => {
+    progress(0, 1, `score model, matching, balance, effect: ${name}`);
+    return core.session_run(name);
+  },
+  session_pair: ({ name, set }) => core.session_pair(name, set),
+  session_disagreement: ({ name, column }) => core.session_disagreement(name, column),
+  session_preview: ({ offset, count, mentionsOnly }) => core.session_preview(offset, count, mentionsOnly),
+  session_files: ({ name }) => core.session_files(name),
+  session_draw_love: ({ width, height, designs }) =>
+    paint(width, height, (canvas) => core.session_draw_love(canvas, designs)),
+  session_draw_overlap: ({ width, height, name }) =>
+    paint(width, height, (canvas) => core.session_draw_overlap(canvas, name)),
+  session_love_svg: ({ designs, width, height }) => core.session_love_svg(designs, width, height),
+  session_overlap_svg: ({ name, width, height }) => core.session_overlap_svg(name, width, height),
+  love_height: ({ terms }) => core.love_height(terms),
+  study_to_toml: ({ study }) => core.study_to_toml(study),
+  study_from_toml: ({ text }) => core.study_from_toml(text),
 };
+
+// A chart is painted by the core on a canvas of the worker's own; the page
+// receives the picture as an ImageBitmap (handed over, not copied) and shows
+// it in its <canvas>, so drawing costs the page's main thread nothing.
+function paint(width, height, draw) {
+  const canvas = new OffscreenCanvas(width, height);
+  draw(canvas);
+  const bitmap = canvas.transferToImageBitmap();
+  return withTransfer({ bitmap, width, height }, [bitmap]);
+}
+
+const TRANSFER = Symbol('transfer');
+function withTransfer(value, list) {
+  return { [TRANSFER]: list, value };
+}
 
 // After a trap (a Rust panic) the instance's memory cannot be trusted; every
 // later call is refused and the page starts a fresh worker.
@@ -51,8 +94,12 @@ function call({ id, method, args }) {
   }
   const progress = (done, total, label) => self.postMessage({ type: 'progress', id, done, total, label });
   try {
-    const value = run(args ?? {}, progress);
-    self.postMessage({ type: 'result', id, value });
+    const out = run(args ?? {}, progress);
+    if (out && typeof out === 'object' && TRANSFER in out) {
+      self.postMessage({ type: 'result', id, value: out.value }, out[TRANSFER]);
+    } else {
+      self.postMessage({ type: 'result', id, value: out });
+    }
   } catch (err) {
     const fatal = err instanceof WebAssembly.RuntimeError;
     if (fatal) broken = true;

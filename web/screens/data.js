@@ -4,6 +4,9 @@
 
 import { el, append, replaceChildren, formatCount } from '../dom.js';
 import { showError, clearError, showNotice, clearNotice } from '../banner.js';
+import { store, changed, saveStudy, loadStudy, guessStudy, normalizeStudy } from '../store.js';
+import { openCohort, prepare, plain } from '../work.js';
+import { ROLES, roleOf, setRole } from '../roles.js';
 
 const KIND_LABELS = {
   numeric: 'numeric',
@@ -23,7 +26,7 @@ const KIND_NOTES = {
  * Draw the data screen into `screen`. Returns `openBytes(name, bytes)` so
  * other parts of the page (the demo) can open a file the same way.
  */
-export function mountData(screen, engine) {
+export function mountData(screen, engine, onReady) {
   const input = el('input', {
     type: 'file',
     class: 'visually-hidden',
@@ -99,13 +102,16 @@ export function mountData(screen, engine) {
     summary.hidden = true;
     status.textContent = `Reading “${name}” (${formatBytes(buffer.byteLength)})…`;
     try {
-      const [result, markers] = await Promise.all([
-        engine.call('summarize_csv', { bytes: buffer }, { transfer: [buffer] }),
-        missingMarkers(engine),
-      ]);
+      const [result, markers] = await Promise.all([openCohort(name, buffer), missingMarkers(engine)]);
       if (token !== latest) return;
       status.textContent = '';
+      store.file = { name, summary: result };
+      const saved = loadStudy(result);
+      store.study = normalizeStudy(saved ?? guessStudy(result));
+      store.restored = Boolean(saved);
+      changed('file');
       drawSummary(summary, name, result, markers);
+      summary.append(rolesPanel(onReady));
       summary.hidden = false;
       dropZone.classList.add('is-compact');
       lead.textContent = 'Drop another cohort file here';
@@ -113,8 +119,23 @@ export function mountData(screen, engine) {
       if (token !== latest) return;
       status.textContent = '';
       replaceChildren(summary);
+      store.file = null;
+      store.study = null;
+      changed('file');
       showError(err, `Could not read “${name}”`);
     }
+  }
+
+  // Coming back to the step: show the open file again.
+  if (store.file) {
+    Promise.resolve(missingMarkers(engine)).then((markers) => {
+      if (!store.file) return;
+      drawSummary(summary, store.file.name, store.file.summary, markers);
+      summary.append(rolesPanel(onReady));
+      summary.hidden = false;
+      dropZone.classList.add('is-compact');
+      lead.textContent = 'Drop another cohort file here';
+    });
   }
 
   return { openBytes };
@@ -170,6 +191,8 @@ function drawSummary(section, name, s, markers) {
       ),
       missingCell(c.missing, s.rows),
       el('td', { class: 'num', text: formatCount(c.distinct) }),
+      el('td', {}, kindSelect(c)),
+      el('td', {}, roleSelect(c)),
     ),
   );
   const table = el(
@@ -187,6 +210,8 @@ function drawSummary(section, name, s, markers) {
         el('th', { scope: 'col', text: 'Kind' }),
         el('th', { scope: 'col', class: 'num', text: 'Missing' }),
         el('th', { scope: 'col', class: 'num', text: 'Distinct values' }),
+        el('th', { scope: 'col', text: 'Use as kind' }),
+        el('th', { scope: 'col', text: 'Role' }),
       ),
     ),
     el('tbody', {}, rows),
@@ -252,3 +277,150 @@ function formatBytes(n) {
   if (n >= 1e3) return `${(n / 1e3).toFixed(0)} kB`;
   return `${n} bytes`;
 }
+
+const KIND_CHOICES = ['numeric', 'binary', 'categorical', 'text'];
+
+function kindSelect(c) {
+  const current = store.study?.columns.kinds?.[c.name] ?? '';
+  const select = el(
+    'select',
+    { 'aria-label': `Kind used for column ${c.name}`, 'data-testid': 'kind-select', 'data-col': c.name },
+    el('option', { value: '', text: `as inferred (${c.kind})` }),
+    KIND_CHOICES.map((k) => el('option', { value: k, text: k })),
+  );
+  select.value = current;
+  select.addEventListener('change', () => {
+    if (!store.study) return;
+    if (select.value) store.study.columns.kinds[c.name] = select.value;
+    else delete store.study.columns.kinds[c.name];
+    saveStudy();
+    changed('study');
+  });
+  return select;
+}
+
+function roleSelect(c) {
+  const select = el(
+    'select',
+    { 'aria-label': `Role of column ${c.name}`, 'data-testid': 'role-select', 'data-col': c.name },
+    ROLES.map((r) => el('option', { value: r.id, text: r.label })),
+  );
+  select.value = roleOf(store.study, c.name);
+  select.addEventListener('change', () => {
+    if (!store.study) return;
+    setRole(store.study, c.name, select.value);
+    saveStudy();
+    changed('study');
+    // Other selects may have changed (one id, one group, one notes column).
+    for (const other of document.querySelectorAll('[data-testid="role-select"]')) {
+      other.value = roleOf(store.study, other.dataset.col);
+    }
+    refreshRoles();
+  });
+  return select;
+}
+
+let refreshRoles = () => {};
+
+/** The part of the data step below the column table: the group's treated
+ * value, the roles at a glance, problems, and the button that prepares. */
+function rolesPanel(onReady) {
+  const panel = el('section', { class: 'roles-panel', 'aria-labelledby': 'roles-title' });
+  const treated = el('select', { 'aria-label': 'Treated value of the group column', 'data-testid': 'treated-select' });
+  treated.addEventListener('change', () => {
+    store.study.columns.treated = treated.value;
+    saveStudy();
+    changed('study');
+  });
+  const recap = el('p', { class: 'roles-recap', 'data-testid': 'roles-recap' });
+  const problems = el('ul', { class: 'problems', 'data-testid': 'problems' });
+  const go = el('button', { type: 'button', class: 'button', 'data-testid': 'check-roles', text: 'Check the roles and continue' });
+  const allCov = el('button', {
+    type: 'button',
+    class: 'button button-quiet',
+    'data-testid': 'all-covariates',
+    text: 'Make every unassigned column a covariate',
+  });
+  allCov.addEventListener('click', () => {
+    for (const c of store.file.summary.column_summaries) {
+      if (roleOf(store.study, c.name) === 'none' && c.kind !== 'text') setRole(store.study, c.name, 'covariate');
+    }
+    saveStudy();
+    changed('study');
+    for (const other of document.querySelectorAll('[data-testid="role-select"]')) {
+      other.value = roleOf(store.study, other.dataset.col);
+    }
+    refreshRoles();
+  });
+  go.addEventListener('click', async () => {
+    clearError();
+    try {
+      const p = await prepare();
+      drawProblems(problems, p);
+      onReady?.();
+    } catch (err) {
+      if (err?.kind !== 'cancelled') showError(err, 'The roles need a fix', 'Change the roles above and try again.');
+    }
+  });
+  refreshRoles = async () => {
+    const c = store.study.columns;
+    recap.textContent =
+      `Id: ${c.id || '—'} · group: ${c.group || '—'} · outcomes: ${c.outcomes.length} · ` +
+      `covariates: ${c.covariates.length} · notes: ${c.notes || 'none'}`;
+    replaceChildren(treated);
+    if (!c.group) {
+      treated.disabled = true;
+      return;
+    }
+    treated.disabled = false;
+    try {
+      const levels = await plain('session_levels', { column: c.group, limit: 50 });
+      replaceChildren(treated, levels.map((v) => el('option', { value: v, text: v })));
+      if (!levels.includes(c.treated) && levels.length) {
+        c.treated = levels[levels.length - 1];
+        saveStudy();
+      }
+      treated.value = c.treated;
+    } catch {
+      // The worker was replaced (cancel); the select fills on the next change.
+    }
+  };
+  refreshRoles();
+  return append(
+    panel,
+    el('h2', { id: 'roles-title', text: 'Roles' }),
+    el('p', {
+      class: 'hint',
+      text:
+        'Say what each column is for in the Role column of the table: one id (unique per row), one group column ' +
+        'with two values, outcomes, covariates to balance, and at most one note column.' +
+        (store.restored ? ' These roles were restored from your last visit with a file of the same columns.' : ''),
+    }),
+    recap,
+    el('div', { class: 'field-row' }, el('label', { class: 'field' }, el('span', { text: 'Treated value of the group' }), treated), allCov),
+    go,
+    problems,
+  );
+}
+
+function drawProblems(list, p) {
+  const items = [];
+  items.push(
+    el('li', {
+      class: 'ok',
+      text: `${formatCount(p.rows_used)} rows used: ${formatCount(p.treated)} treated (group = ${p.group_values[0]}), ` +
+        `${formatCount(p.comparison)} comparison (group = ${p.group_values[1]}).`,
+    }),
+  );
+  for (const f of p.fills) {
+    items.push(el('li', { class: 'warn', text: `Column “${f.column}”: ${formatCount(f.cells)} missing cells filled (${f.method}).` }));
+  }
+  const shown = p.left_out.slice(0, 8);
+  for (const l of shown) items.push(el('li', { class: 'warn', text: `Row ${l.row} left out: ${l.reason}` }));
+  if (p.left_out.length > shown.length) {
+    items.push(el('li', { class: 'warn', text: `…and ${formatCount(p.left_out.length - shown.length)} more rows left out.` }));
+  }
+  replaceChildren(list, items);
+}
+
+

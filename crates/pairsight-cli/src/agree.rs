@@ -157,16 +157,14 @@ pub fn results_text(r: &ReviewResults) -> String {
             );
         }
     }
-    let mut s2 = String::new();
     for k in &ag.kappas {
         for n in &k.notes {
-            let _ = writeln!(s2, "  note: {} and {}: {n}", k.first, k.second);
+            let _ = writeln!(s, "  note: {} and {}: {n}", k.first, k.second);
         }
     }
     for n in &ag.notes {
-        let _ = writeln!(s2, "  note: {n}");
+        let _ = writeln!(s, "  note: {n}");
     }
-    s.push_str(&s2);
     let c = &r.comparison;
     let _ = writeln!(
         s,

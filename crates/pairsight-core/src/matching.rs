@@ -2,7 +2,7 @@
 //! optimal (least total distance), with a caliper on the logit score, exact
 //! agreement on a key, 1:k sets, with or without reuse.
 //!
-//! Rules (see `docs/methods-engine.md` for the formulas and references):
+//! Rules (see `docs/methods.md` for the formulas and references):
 //!
 //! * A pair `(t, c)` is *allowed* when both rows have the same exact key (if
 //!   keys are given) and, with a caliper, `|logit_t - logit_c| <= width`,

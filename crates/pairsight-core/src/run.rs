@@ -197,20 +197,32 @@ impl Analysis {
             }
             None => None,
         };
-        let mut names: Vec<String> = study.columns.covariates.clone();
-        names.extend(study.concepts.iter().map(|c| format!("concept.{}", c.name)));
-        for d in &study.designs {
-            for t in d.score_terms.iter().chain(d.mahalanobis_terms.iter()) {
-                if t.starts_with("note.") || t.starts_with("concept.") {
-                    names.push(t.clone());
-                }
-            }
-        }
-        let (balance_terms, fills) = cohort.balance_terms(&names)?;
+        let (balance_terms, fills) = cohort.balance_terms(&balance_names(&study))?;
         Ok(Analysis {
             study,
             cohort,
             notes,
+            balance_terms,
+            fills,
+        })
+    }
+
+    /// The same cohort under an edited study. The note features are kept
+    /// when the roles, concepts and note options are unchanged, so editing
+    /// designs never recomputes them; otherwise everything is prepared anew.
+    pub fn with_study(&self, study: Study) -> Result<Analysis> {
+        let same_notes = study.columns == self.study.columns
+            && study.concepts == self.study.concepts
+            && study.note_options == self.study.note_options;
+        if !same_notes {
+            return Analysis::from_table(self.cohort.table.clone(), study);
+        }
+        study.validate()?;
+        let (balance_terms, fills) = self.cohort.balance_terms(&balance_names(&study))?;
+        Ok(Analysis {
+            study,
+            cohort: self.cohort.clone(),
+            notes: self.notes.clone(),
             balance_terms,
             fills,
         })
@@ -647,6 +659,21 @@ impl Analysis {
             skipped: Vec::new(),
         }
     }
+}
+
+/// Terms of the balance table: the covariates, every concept, and any other
+/// note feature a design uses.
+fn balance_names(study: &Study) -> Vec<String> {
+    let mut names: Vec<String> = study.columns.covariates.clone();
+    names.extend(study.concepts.iter().map(|c| format!("concept.{}", c.name)));
+    for d in &study.designs {
+        for t in d.score_terms.iter().chain(d.mahalanobis_terms.iter()) {
+            if t.starts_with("note.") || t.starts_with("concept.") {
+                names.push(t.clone());
+            }
+        }
+    }
+    names
 }
 
 fn kind_name<T: Serialize>(k: &T) -> String {

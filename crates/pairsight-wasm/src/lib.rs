@@ -9,17 +9,36 @@
 //! - Failures are thrown as one object shape, `{kind, message, detail, row,
 //!   column, key}`, built by [`error_to_js`] from the core's
 //!   [`pairsight_core::Error`]; fields that do not apply are `null`.
-//! - No binding keeps state between calls; the worker owns the session.
+//! - The `session_*` bindings share one session per worker ([`session`]):
+//!   the cohort read, the prepared analysis with its note features, and each
+//!   design's run, so that editing a design never recomputes the notes.
 //!
 //! The page never calls these functions on its main thread: `web/worker.js`
 //! calls them inside a Web Worker, so a long computation cannot freeze the page.
 #![deny(missing_docs)]
 
+pub mod charts;
 mod convert;
+pub mod session;
 
 pub use convert::{error_to_js, to_js, ErrorShape};
 
+use pairsight_core::study::Study;
 use wasm_bindgen::prelude::*;
+use web_sys::OffscreenCanvas;
+
+fn js_err(e: pairsight_core::Error) -> JsValue {
+    error_to_js(&e)
+}
+
+fn from_js<T: serde::de::DeserializeOwned>(value: JsValue, what: &str) -> Result<T, JsValue> {
+    serde_wasm_bindgen::from_value(value).map_err(|e| {
+        error_to_js(&pairsight_core::Error::param(
+            what,
+            format!("the page sent a value the core cannot read: {e}"),
+        ))
+    })
+}
 
 /// Install the panic hook so a bug shows as a console message, not a dead page.
 #[wasm_bindgen(start)]
@@ -49,4 +68,120 @@ pub fn missing_markers() -> Result<JsValue, JsValue> {
 pub fn summarize_csv(bytes: &[u8]) -> Result<JsValue, JsValue> {
     let table = pairsight_core::ingest::read_table(bytes).map_err(|e| error_to_js(&e))?;
     to_js(&table.summary())
+}
+
+/// Open a cohort file (CSV bytes) as the worker's session table and return
+/// its summary, like [`summarize_csv`]; forgets the previous study and runs.
+#[wasm_bindgen]
+pub fn session_open(bytes: &[u8]) -> Result<JsValue, JsValue> {
+    to_js(&session::open(bytes).map_err(js_err)?)
+}
+
+/// Set the session's study (the page's study object, the same fields as a
+/// study file) and prepare it: roles checked, note features computed when
+/// roles, concepts or note options changed. Returns [`session::Prepared`].
+#[wasm_bindgen]
+pub fn session_prepare(study: JsValue) -> Result<JsValue, JsValue> {
+    let study: Study = from_js(study, "study")?;
+    to_js(&session::prepare(study).map_err(js_err)?)
+}
+
+/// Run the design named `name` (or return its cached run): a
+/// [`session::RunView`].
+#[wasm_bindgen]
+pub fn session_run(name: &str) -> Result<JsValue, JsValue> {
+    to_js(&session::run(name).map_err(js_err)?)
+}
+
+/// Matched set `set` (0-based) of design `name`, side by side.
+#[wasm_bindgen]
+pub fn session_pair(name: &str, set: usize) -> Result<JsValue, JsValue> {
+    to_js(&session::pair(name, set).map_err(js_err)?)
+}
+
+/// Per matched set of design `name`, the disagreement on `column`.
+#[wasm_bindgen]
+pub fn session_disagreement(name: &str, column: &str) -> Result<JsValue, JsValue> {
+    to_js(&session::disagreement(name, column).map_err(js_err)?)
+}
+
+/// Notes with concept highlights for the concept editor's preview.
+#[wasm_bindgen]
+pub fn session_preview(
+    offset: usize,
+    count: usize,
+    mentions_only: bool,
+) -> Result<JsValue, JsValue> {
+    to_js(&session::preview(offset, count, mentions_only).map_err(js_err)?)
+}
+
+/// Every output file of design `name` (`[{name, contents}]`), byte for byte
+/// what `pairsight match` writes.
+#[wasm_bindgen]
+pub fn session_files(name: &str) -> Result<JsValue, JsValue> {
+    to_js(&session::files(name).map_err(js_err)?)
+}
+
+fn names_of(designs: JsValue) -> Result<Vec<String>, JsValue> {
+    from_js(designs, "designs")
+}
+
+/// Paint the Love plot of the designs named in `designs` (an array of
+/// names, run already) on `canvas`.
+#[wasm_bindgen]
+pub fn session_draw_love(canvas: &OffscreenCanvas, designs: JsValue) -> Result<(), JsValue> {
+    let names = names_of(designs)?;
+    session::with_runs(&names, |_, runs| charts::paint_love(canvas, &runs)).map_err(js_err)
+}
+
+/// Paint the overlap plot of design `name` on `canvas`.
+#[wasm_bindgen]
+pub fn session_draw_overlap(canvas: &OffscreenCanvas, name: &str) -> Result<(), JsValue> {
+    session::with_runs(&[name.to_string()], |a, runs| {
+        charts::paint_overlap(canvas, a, runs[0])
+    })
+    .map_err(js_err)
+}
+
+/// The Love plot of the named designs as SVG text.
+#[wasm_bindgen]
+pub fn session_love_svg(designs: JsValue, width: u32, height: u32) -> Result<String, JsValue> {
+    let names = names_of(designs)?;
+    session::with_runs(&names, |_, runs| charts::love_svg_of(&runs, width, height)).map_err(js_err)
+}
+
+/// The overlap plot of design `name` as SVG text.
+#[wasm_bindgen]
+pub fn session_overlap_svg(name: &str, width: u32, height: u32) -> Result<String, JsValue> {
+    session::with_runs(&[name.to_string()], |a, runs| {
+        charts::overlap_svg_of(a, runs[0], width, height)
+    })
+    .map_err(js_err)
+}
+
+/// A height that gives each row of a Love plot with `terms` rows room.
+#[wasm_bindgen]
+pub fn love_height(terms: usize) -> u32 {
+    pairsight_core::chart::love_height_hint(terms)
+}
+
+/// The page's study object as study-file text (TOML), after validation.
+#[wasm_bindgen]
+pub fn study_to_toml(study: JsValue) -> Result<String, JsValue> {
+    let study: Study = from_js(study, "study")?;
+    study.validate().map_err(js_err)?;
+    study.to_toml().map_err(js_err)
+}
+
+/// A study file's text as the page's study object; errors name the key or
+/// the line.
+#[wasm_bindgen]
+pub fn study_from_toml(text: &str) -> Result<JsValue, JsValue> {
+    to_js(&Study::from_toml(text).map_err(js_err)?)
+}
+
+/// Distinct values of a column of the session's table (at most `limit`).
+#[wasm_bindgen]
+pub fn session_levels(column: &str, limit: usize) -> Result<JsValue, JsValue> {
+    to_js(&session::levels(column, limit).map_err(js_err)?)
 }

@@ -137,7 +137,7 @@ fn cosine_distance_matches_sklearn() {
 /// k + p columns and q power iterations converges like
 /// (s_{l+1} / s_k)^(2q + 1) (Halko, Martinsson & Tropp 2011, section 4.5;
 /// rate from memory), so the Frobenius difference must stay within 10 times
-/// that (about 1.6e-3 on this corpus; we measure about 1.5e-4).
+/// that rate, computed from numpy's singular values.
 #[test]
 fn latent_step_matches_numpy_svd() {
     let r = reference("notes");

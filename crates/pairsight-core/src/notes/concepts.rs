@@ -4,13 +4,12 @@
 //! affirmed or negated (see the negation module).
 
 use std::borrow::Cow;
-use std::cell::OnceCell;
 
 use aho_corasick::{AhoCorasick, AhoCorasickKind, MatchKind};
 use serde::{Deserialize, Serialize};
 
-use super::negation::{find_cues, negated};
-use super::tokens::{for_each_word_run, is_word_char};
+use super::negation::{cue_phrases, cues_from_matches, negated};
+use super::tokens::is_word_char;
 use crate::{Error, Result};
 
 fn yes() -> bool {
@@ -81,8 +80,6 @@ pub(crate) struct Normalized<'a> {
     /// Normalized offsets of sentence ends (`.` `!` `?` before a space or
     /// the end, `;`) and of line breaks.
     pub breaks: Vec<usize>,
-    /// Byte offsets where words start, found when first needed.
-    word_starts: OnceCell<Vec<usize>>,
 }
 
 impl<'a> Normalized<'a> {
@@ -128,7 +125,6 @@ impl<'a> Normalized<'a> {
             identity: plain,
             orig_len: text.len(),
             breaks,
-            word_starts: OnceCell::new(),
         }
     }
 
@@ -181,16 +177,25 @@ impl<'a> Normalized<'a> {
         }
     }
 
-    /// Number of words starting in `a..b`.
-    pub(crate) fn words_between(&self, a: usize, b: usize) -> usize {
-        let starts = self.word_starts.get_or_init(|| {
-            let mut v = Vec::new();
-            for_each_word_run(&self.text, |s, _| v.push(s));
-            v
-        });
-        let lo = starts.partition_point(|&s| s < a);
-        let hi = starts.partition_point(|&s| s < b);
-        hi.saturating_sub(lo)
+    /// Whether at most `limit` words start in `a..b`; stops reading after
+    /// `limit + 1` words, so a far-away cue costs little.
+    pub(crate) fn words_between_at_most(&self, a: usize, b: usize, limit: usize) -> bool {
+        let Some(slice) = self.text.get(a..b.min(self.text.len())) else {
+            return false;
+        };
+        let mut count = 0usize;
+        let mut in_word = a > 0 && self.text[..a].chars().next_back().is_some_and(is_word_char);
+        for c in slice.chars() {
+            let w = is_word_char(c);
+            if w && !in_word {
+                count += 1;
+                if count > limit {
+                    return false;
+                }
+            }
+            in_word = w;
+        }
+        true
     }
 }
 
@@ -261,8 +266,11 @@ pub(crate) struct Mention {
 pub struct ConceptMatcher {
     names: Vec<String>,
     negation: Vec<bool>,
+    /// Concept patterns first, then (when any concept uses negation) the
+    /// negation cues, so one scan of a note finds both.
     ac: Option<AhoCorasick>,
     lens: Vec<usize>,
+    n_patterns: usize,
     /// For each distinct pattern, the concepts that list it.
     owners: Vec<Vec<usize>>,
 }
@@ -328,7 +336,11 @@ impl ConceptMatcher {
                 }
             }
         }
-        let ac = if patterns.is_empty() {
+        let n_patterns = patterns.len();
+        if concepts.iter().any(|c| c.negation) {
+            patterns.extend(cue_phrases().map(str::to_string));
+        }
+        let ac = if n_patterns == 0 {
             None
         } else {
             Some(
@@ -349,6 +361,7 @@ impl ConceptMatcher {
             negation: concepts.iter().map(|c| c.negation).collect(),
             ac,
             lens: patterns.iter().map(String::len).collect(),
+            n_patterns,
             owners,
         })
     }
@@ -364,7 +377,9 @@ impl ConceptMatcher {
         let Some(ac) = &self.ac else {
             return Vec::new();
         };
-        let raw = boundary_matches(ac, &norm.text, &self.lens);
+        let all = boundary_matches(ac, &norm.text, &self.lens);
+        let (raw, mut cue_raw): (Vec<_>, Vec<_>) =
+            all.into_iter().partition(|m| m.2 < self.n_patterns);
         if raw.is_empty() {
             return Vec::new();
         }
@@ -387,7 +402,10 @@ impl ConceptMatcher {
             }
         }
         if out.iter().any(|m| self.negation[m.concept]) {
-            let cues = find_cues(norm);
+            for m in cue_raw.iter_mut() {
+                m.2 -= self.n_patterns;
+            }
+            let cues = cues_from_matches(&mut cue_raw);
             if !cues.is_empty() {
                 let spans: Vec<(usize, usize)> = out.iter().map(|m| (m.start, m.end)).collect();
                 let flags = negated(norm, &cues, &spans, &spans);

@@ -92,21 +92,56 @@ pub fn mtld<S: AsRef<str>>(words: &[S]) -> f64 {
 
 /// Type-token ratio, MTLD (threshold 0.72) and syllable count of many
 /// notes, one after another: one word-to-number map for the whole corpus
-/// saves building a map per note, and each distinct word's syllables are
-/// counted once.
+/// saves building a map per note, words that are also terms reuse the term
+/// counter's number, and each distinct word's syllables are counted once.
 #[derive(Default)]
 pub(crate) struct Diversity {
+    /// Slot of each word that is not a term.
     ids: FastMap<Box<str>, u32>,
+    /// Slot of each term id (`NO_SLOT` until seen).
+    term_slots: Vec<u32>,
     syllables: Vec<u32>,
     local: Vec<u32>,
-    note_ids: Vec<u32>,
     stamp: Vec<u32>,
+    note_ids: Vec<u32>,
     note: u32,
 }
 
+const NO_SLOT: u32 = u32::MAX;
+
 impl Diversity {
-    /// (type-token ratio, MTLD, syllables) of one note's words.
-    pub(crate) fn measure(&mut self, words: &[&str]) -> (f64, f64, usize) {
+    fn new_slot(&mut self, word: &str) -> u32 {
+        let slot = self.syllables.len() as u32;
+        self.syllables
+            .push(super::readability::syllables(word) as u32);
+        self.stamp.push(0);
+        self.local.push(0);
+        slot
+    }
+
+    fn slot(&mut self, word: &str, term: u32) -> usize {
+        if term != super::tokens::NO_TERM {
+            let t = term as usize;
+            if self.term_slots.len() <= t {
+                self.term_slots.resize(t + 1, NO_SLOT);
+            }
+            if self.term_slots[t] == NO_SLOT {
+                self.term_slots[t] = self.new_slot(word);
+            }
+            return self.term_slots[t] as usize;
+        }
+        if let Some(&g) = self.ids.get(word) {
+            return g as usize;
+        }
+        let g = self.new_slot(word);
+        self.ids.insert(word.into(), g);
+        g as usize
+    }
+
+    /// (type-token ratio, MTLD, syllables) of one note's words; `terms[k]`
+    /// is the term id of word k when the word is exactly one term, else
+    /// `NO_TERM`.
+    pub(crate) fn measure(&mut self, words: &[&str], terms: &[u32]) -> (f64, f64, usize) {
         if words.is_empty() {
             return (0.0, 0.0, 0);
         }
@@ -119,25 +154,15 @@ impl Diversity {
         }
         self.note_ids.clear();
         let mut types = 0u32;
-        for w in words {
-            let global = match self.ids.get(*w) {
-                Some(&g) => g,
-                None => {
-                    let g = self.ids.len() as u32;
-                    self.ids.insert((*w).into(), g);
-                    self.stamp.push(0);
-                    self.local.push(0);
-                    self.syllables.push(super::readability::syllables(w) as u32);
-                    g
-                }
-            } as usize;
-            syllables += self.syllables[global] as usize;
-            if self.stamp[global] != self.note {
-                self.stamp[global] = self.note;
-                self.local[global] = types;
+        for (k, w) in words.iter().enumerate() {
+            let slot = self.slot(w, terms.get(k).copied().unwrap_or(super::tokens::NO_TERM));
+            syllables += self.syllables[slot] as usize;
+            if self.stamp[slot] != self.note {
+                self.stamp[slot] = self.note;
+                self.local[slot] = types;
                 types += 1;
             }
-            self.note_ids.push(self.local[global]);
+            self.note_ids.push(self.local[slot]);
         }
         let types = types as usize;
         (

@@ -17,8 +17,9 @@ use crate::{Error, Result};
 /// 4.2, suggest p = 5 or 10).
 pub const OVERSAMPLE: usize = 10;
 /// Power iterations q (Halko et al. 2011, section 4.5): each applies A and
-/// its transpose once more, sharpening the decay of the spectrum.
-pub const POWER_ITERATIONS: usize = 5;
+/// its transpose once more, sharpening the decay of the spectrum. Our rounds
+/// apply A'A q + 1 times, as many products as Algorithm 4.4 with q.
+pub const POWER_ITERATIONS: usize = 4;
 
 /// The latent step's result.
 #[derive(Debug, Clone, PartialEq)]
@@ -48,18 +49,29 @@ impl Elem for f64 {
     }
 }
 
-/// y = A z, with z (cols x l) and y (rows x l) dense row-major.
-fn mul<T: Elem>(indptr: &[usize], indices: &[u32], values: &[T], z: &[T], l: usize, y: &mut [T]) {
-    for (i, yi) in y.chunks_exact_mut(l).enumerate() {
-        yi.fill(T::default());
-        let (a, b) = (indptr[i], indptr[i + 1]);
-        for (&j, &x) in indices[a..b].iter().zip(&values[a..b]) {
-            let zj = &z[j as usize * l..j as usize * l + l];
-            for (t, &s) in yi.iter_mut().zip(zj) {
-                *t += x * s;
+/// y = A z, with z (cols x l) and y (rows x l) dense row-major; rows of y
+/// are computed independently, so blocks of them go to separate threads.
+fn mul<T: Elem + Send + Sync>(
+    indptr: &[usize],
+    indices: &[u32],
+    values: &[T],
+    z: &[T],
+    l: usize,
+    y: &mut [T],
+) {
+    super::parallel::for_row_blocks(y, l, 512, |first, block| {
+        for (k, yi) in block.chunks_exact_mut(l).enumerate() {
+            let i = first + k;
+            yi.fill(T::default());
+            let (a, b) = (indptr[i], indptr[i + 1]);
+            for (&j, &x) in indices[a..b].iter().zip(&values[a..b]) {
+                let zj = &z[j as usize * l..j as usize * l + l];
+                for (t, &s) in yi.iter_mut().zip(zj) {
+                    *t += x * s;
+                }
             }
         }
-    }
+    });
 }
 
 /// Orthonormal basis of the columns of a row-major r x l block, in place:
@@ -68,26 +80,8 @@ fn mul<T: Elem>(indptr: &[usize], indices: &[u32], values: &[T], z: &[T], l: usi
 /// falling back to Householder QR when the Gram matrix is too ill-conditioned
 /// for a safe Cholesky factor (for example a rank-deficient block).
 fn orthonormalize<T: Elem + Into<f64>>(buf: &mut [T], r: usize, l: usize) {
-    let mut g = DMatrix::<f64>::zeros(l, l);
+    let g = gram(buf, l);
     let mut row = vec![0.0f64; l];
-    for chunk in buf.chunks_exact(l) {
-        for (d, &x) in row.iter_mut().zip(chunk) {
-            *d = x.into();
-        }
-        for a in 0..l {
-            let ra = row[a];
-            if ra != 0.0 {
-                for b in a..l {
-                    g[(a, b)] += ra * row[b];
-                }
-            }
-        }
-    }
-    for a in 0..l {
-        for b in 0..a {
-            g[(a, b)] = g[(b, a)];
-        }
-    }
     let max_diag = (0..l).map(|a| g[(a, a)]).fold(0.0, f64::max);
     let chol = nalgebra::Cholesky::new(g).map(|c| c.l());
     let ok = chol.as_ref().is_some_and(|lower| {
@@ -95,17 +89,20 @@ fn orthonormalize<T: Elem + Into<f64>>(buf: &mut [T], r: usize, l: usize) {
     });
     match chol {
         Some(lower) if ok => {
+            // Rows of L as plain slices for the inner loop.
+            let lrows: Vec<f64> = (0..l)
+                .flat_map(|j| (0..l).map(move |i| (j, i)))
+                .map(|(j, i)| lower[(j, i)])
+                .collect();
             // Each row q solves L q' = z' (forward substitution).
             for chunk in buf.chunks_exact_mut(l) {
                 for (d, &x) in row.iter_mut().zip(chunk.iter()) {
                     *d = x.into();
                 }
                 for j in 0..l {
-                    let mut t = row[j];
-                    for i in 0..j {
-                        t -= lower[(j, i)] * row[i];
-                    }
-                    row[j] = t / lower[(j, j)];
+                    let lj = &lrows[j * l..j * l + j];
+                    let dot: f64 = lj.iter().zip(&row[..j]).map(|(a, b)| a * b).sum();
+                    row[j] = (row[j] - dot) / lrows[j * l + j];
                 }
                 for (d, &x) in chunk.iter_mut().zip(&row) {
                     *d = T::of(x);
@@ -124,8 +121,43 @@ fn orthonormalize<T: Elem + Into<f64>>(buf: &mut [T], r: usize, l: usize) {
     }
 }
 
-/// The transpose of `a`, so that products with A' read rows too.
-fn transpose(a: &SparseRows) -> SparseRows {
+/// The Gram matrix B'B (l x l, double precision) of a row-major r x l block,
+/// summed row by row in a fixed order (so the result never depends on
+/// threads).
+fn gram<T: Elem + Into<f64>>(buf: &[T], l: usize) -> DMatrix<f64> {
+    let mut upper = vec![0.0f64; l * l];
+    let mut row = vec![0.0f64; l];
+    for chunk in buf.chunks_exact(l) {
+        for (d, &x) in row.iter_mut().zip(chunk) {
+            *d = x.into();
+        }
+        for a in 0..l {
+            let ra = row[a];
+            if ra != 0.0 {
+                for (g, &rb) in upper[a * l + a..a * l + l].iter_mut().zip(&row[a..]) {
+                    *g += ra * rb;
+                }
+            }
+        }
+    }
+    DMatrix::from_fn(l, l, |a, b| {
+        if a <= b {
+            upper[a * l + b]
+        } else {
+            upper[b * l + a]
+        }
+    })
+}
+
+/// The transpose of `a` with values `values` (those of `a`, possibly in
+/// another precision), so that products with A' read rows too.
+struct Transposed<T> {
+    indptr: Vec<usize>,
+    indices: Vec<u32>,
+    values: Vec<T>,
+}
+
+fn transpose<T: Elem>(a: &SparseRows, values: &[T]) -> Transposed<T> {
     let mut indptr = vec![0usize; a.n_cols + 1];
     for &c in &a.indices {
         indptr[c as usize + 1] += 1;
@@ -135,21 +167,20 @@ fn transpose(a: &SparseRows) -> SparseRows {
     }
     let mut next = indptr.clone();
     let mut indices = vec![0u32; a.indices.len()];
-    let mut values = vec![0.0; a.values.len()];
+    let mut out = vec![T::default(); values.len()];
     for i in 0..a.n_rows() {
-        let (c, v) = a.row(i);
-        for (&k, &x) in c.iter().zip(v) {
+        let (lo, hi) = (a.indptr[i], a.indptr[i + 1]);
+        for (&k, &x) in a.indices[lo..hi].iter().zip(&values[lo..hi]) {
             let p = next[k as usize];
             indices[p] = i as u32;
-            values[p] = x;
+            out[p] = x;
             next[k as usize] += 1;
         }
     }
-    SparseRows {
-        n_cols: a.n_rows(),
+    Transposed {
         indptr,
         indices,
-        values,
+        values: out,
     }
 }
 
@@ -158,23 +189,7 @@ fn transpose(a: &SparseRows) -> SparseRows {
 /// singular vectors as columns. Squaring costs relative accuracy of about
 /// machine epsilon times (s_1 / s_j)^2, far below what latent features need.
 fn gram_svd(buf: &[f64], l: usize) -> Result<(Vec<f64>, DMatrix<f64>)> {
-    let mut g = DMatrix::<f64>::zeros(l, l);
-    for row in buf.chunks_exact(l) {
-        for a in 0..l {
-            let ra = row[a];
-            if ra == 0.0 {
-                continue;
-            }
-            for b in a..l {
-                g[(a, b)] += ra * row[b];
-            }
-        }
-    }
-    for a in 0..l {
-        for b in 0..a {
-            g[(a, b)] = g[(b, a)];
-        }
-    }
+    let g = gram(buf, l);
     let eig = nalgebra::SymmetricEigen::try_new(g, f64::EPSILON, 0).ok_or_else(|| {
         Error::compute(
             "the latent step's eigen-decomposition did not converge; try fewer latent dimensions",
@@ -216,20 +231,19 @@ pub fn truncated_svd(a: &SparseRows, k: usize, seed: u64) -> Result<Latent> {
     let mut rng = Rng::new(seed);
     let mut scores = Array2::<f64>::zeros((n, k));
     let sv: Vec<f64>;
-    let at = transpose(a);
     let a32: Vec<f32> = a.values.iter().map(|&x| x as f32).collect();
-    let at32: Vec<f32> = at.values.iter().map(|&x| x as f32).collect();
+    let at = transpose(a, &a32);
     // Power iterations in single precision on the smaller side; the result
     // is re-orthonormalized in double precision before the final step.
     let (side, other) = if m <= n { (m, n) } else { (n, m) };
     let (first, second) = if m <= n {
         (
             (&a.indptr, &a.indices, &a32),
-            (&at.indptr, &at.indices, &at32),
+            (&at.indptr, &at.indices, &at.values),
         )
     } else {
         (
-            (&at.indptr, &at.indices, &at32),
+            (&at.indptr, &at.indices, &at.values),
             (&a.indptr, &a.indices, &a32),
         )
     };
@@ -248,12 +262,14 @@ pub fn truncated_svd(a: &SparseRows, k: usize, seed: u64) -> Result<Latent> {
         // U S = A Q W (Rayleigh-Ritz on the subspace).
         mul(&a.indptr, &a.indices, &a.values, &q, l, &mut y);
         let (s, w) = gram_svd(&y, l)?;
-        for i in 0..n {
+        let wc: Vec<f64> = w.as_slice().to_vec(); // column-major: column c at c * l
+        for (i, yi) in y.chunks_exact(l).enumerate() {
             for c in 0..k {
-                let mut t = 0.0;
-                for j in 0..l {
-                    t += y[i * l + j] * w[(j, c)];
-                }
+                let t: f64 = yi
+                    .iter()
+                    .zip(&wc[c * l..c * l + l])
+                    .map(|(a, b)| a * b)
+                    .sum();
                 scores[[i, c]] = t;
             }
         }
@@ -261,14 +277,17 @@ pub fn truncated_svd(a: &SparseRows, k: usize, seed: u64) -> Result<Latent> {
     } else {
         // Q spans the top left singular vectors: A' Q = V S W', so
         // A ~ Q Q' A = (Q W) S V', and U S = Q W S.
-        mul(&at.indptr, &at.indices, &at.values, &q, l, &mut y);
+        let at64 = transpose(a, &a.values);
+        mul(&at64.indptr, &at64.indices, &at64.values, &q, l, &mut y);
         let (s, w) = gram_svd(&y, l)?;
-        for i in 0..n {
+        let wc: Vec<f64> = w.as_slice().to_vec(); // column-major: column c at c * l
+        for (i, qi) in q.chunks_exact(l).enumerate() {
             for c in 0..k {
-                let mut t = 0.0;
-                for j in 0..l {
-                    t += q[i * l + j] * w[(j, c)];
-                }
+                let t: f64 = qi
+                    .iter()
+                    .zip(&wc[c * l..c * l + l])
+                    .map(|(a, b)| a * b)
+                    .sum();
                 scores[[i, c]] = t * s[c];
             }
         }

@@ -25,6 +25,7 @@ mod concepts;
 mod diversity;
 mod latent;
 mod negation;
+mod parallel;
 mod readability;
 mod termshift;
 mod tfidf;
@@ -166,12 +167,27 @@ pub const BASE_FEATURES: [&str; 6] = [
     "note.mtld",
 ];
 
-/// Computes every note feature of `notes` (see [`NoteFeatures`]).
-pub fn analyze<S: AsRef<str>>(
-    notes: &[S],
-    concepts: &[Concept],
-    options: &NoteOptions,
-) -> Result<NoteFeatures> {
+/// The vector side of the notes alone: term counts, TF-IDF and latent
+/// dimensions, without readability, diversity or concepts (for a distance
+/// on notes that needs nothing else).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct NoteVectors {
+    /// Terms, sorted by code point; columns of `counts` and `tfidf`.
+    pub vocabulary: Vec<String>,
+    /// Raw term counts per note.
+    pub counts: SparseRows,
+    /// Smoothed inverse document frequency of each term.
+    pub idf: Vec<f64>,
+    /// TF-IDF rows, unit length (empty for notes without terms).
+    pub tfidf: SparseRows,
+    /// Latent scores (notes x K).
+    #[serde(serialize_with = "rows_of")]
+    pub latent: Array2<f64>,
+    /// Singular values of the latent step, largest first.
+    pub singular_values: Vec<f64>,
+}
+
+fn check_options(options: &NoteOptions) -> Result<()> {
     if options.latent_dims > MAX_LATENT_DIMS {
         return Err(Error::param(
             "latent_dims",
@@ -181,38 +197,10 @@ pub fn analyze<S: AsRef<str>>(
             ),
         ));
     }
-    let matcher = ConceptMatcher::new(concepts)?;
-    let n = notes.len();
-    let mut counter = tokens::TermCounter::new(options);
-    let mut diversity = diversity::Diversity::default();
-    let mut base = Array2::<f64>::zeros((n, BASE_FEATURES.len()));
-    let mut concept_counts = Array2::<f64>::zeros((n, 2 * concepts.len()));
-    for (i, note) in notes.iter().enumerate() {
-        let note = note.as_ref();
-        let lower = tokens::lowercase(note);
-        let unigrams = counter.add(&lower);
-        let spans = tokens::words(&lower);
-        let word_list: Vec<&str> = spans.iter().map(|&(s, e)| &lower[s..e]).collect();
-        let (ttr, mtld, syllables) = diversity.measure(&word_list);
-        let tc = TextCounts {
-            words: spans.len(),
-            sentences: sentences(&lower),
-            syllables,
-        };
-        base[[i, 0]] = unigrams as f64;
-        base[[i, 1]] = tc.sentences as f64;
-        base[[i, 2]] = flesch_reading_ease(&tc);
-        base[[i, 3]] = flesch_kincaid_grade(&tc);
-        base[[i, 4]] = ttr;
-        base[[i, 5]] = mtld;
-        if !concepts.is_empty() {
-            for (c, (aff, neg)) in matcher.count(note).into_iter().enumerate() {
-                concept_counts[[i, 2 * c]] = aff as f64;
-                concept_counts[[i, 2 * c + 1]] = neg as f64;
-            }
-        }
-    }
-    let counted = counter.finish();
+    Ok(())
+}
+
+fn vectors_from_counts(counted: tokens::Counted, options: &NoteOptions) -> Result<NoteVectors> {
     let counts = SparseRows {
         n_cols: counted.vocabulary.len(),
         indptr: counted.indptr,
@@ -221,7 +209,128 @@ pub fn analyze<S: AsRef<str>>(
     };
     let (tfidf, idf) = tfidf::tfidf(&counts);
     let lat = truncated_svd(&tfidf, options.latent_dims, options.seed)?;
-    let k = lat.singular_values.len();
+    Ok(NoteVectors {
+        vocabulary: counted.vocabulary,
+        counts,
+        idf,
+        tfidf,
+        latent: lat.scores,
+        singular_values: lat.singular_values,
+    })
+}
+
+/// Tokens, counts, TF-IDF and latent dimensions of `notes` (the same values
+/// [`analyze`] returns in these fields), skipping everything else.
+pub fn vectorize<S: AsRef<str> + Sync>(notes: &[S], options: &NoteOptions) -> Result<NoteVectors> {
+    check_options(options)?;
+    let parts = parallel::map_ranges(notes.len(), 1000, |r| {
+        let mut counter = tokens::TermCounter::new(options);
+        for note in &notes[r] {
+            counter.add_with_runs(&tokens::lowercase(note.as_ref()), None);
+        }
+        counter.finish()
+    });
+    vectors_from_counts(tokens::merge(parts), options)
+}
+
+/// What one pass over a run of notes yields.
+struct Part {
+    counted: tokens::Counted,
+    base: Vec<[f64; 6]>,
+    /// Affirmed and negated counts, 2 per concept, notes one after another.
+    concepts: Vec<f64>,
+}
+
+/// Tokens, counts, readability, diversity and concept counts of `notes`.
+fn note_pass<S: AsRef<str>>(notes: &[S], matcher: &ConceptMatcher, options: &NoteOptions) -> Part {
+    let mut counter = tokens::TermCounter::new(options);
+    let mut diversity = diversity::Diversity::default();
+    let mut base = Vec::with_capacity(notes.len());
+    let nc = matcher.names().len();
+    let mut concepts = Vec::with_capacity(notes.len() * 2 * nc);
+    let mut runs = Vec::new();
+    let mut run_terms = Vec::new();
+    let mut word_terms = Vec::new();
+    for note in notes {
+        let note = note.as_ref();
+        let lower = tokens::lowercase(note);
+        runs.clear();
+        let unigrams = counter.add_with_runs(&lower, Some((&mut runs, &mut run_terms)));
+        let spans = tokens::words_from_runs(&lower, &runs);
+        let word_list: Vec<&str> = spans.iter().map(|&(s, e)| &lower[s..e]).collect();
+        // A word made of one run that is itself a term reuses the term's id.
+        word_terms.clear();
+        let mut r = 0;
+        for &(s, e) in &spans {
+            while r < runs.len() && runs[r].0 < s {
+                r += 1;
+            }
+            let single = r < runs.len() && runs[r] == (s, e);
+            word_terms.push(if single {
+                run_terms.get(r).copied().unwrap_or(tokens::NO_TERM)
+            } else {
+                tokens::NO_TERM
+            });
+        }
+        let (ttr, mtld, syllables) = diversity.measure(&word_list, &word_terms);
+        let tc = TextCounts {
+            words: spans.len(),
+            sentences: sentences(&lower),
+            syllables,
+        };
+        base.push([
+            unigrams as f64,
+            tc.sentences as f64,
+            flesch_reading_ease(&tc),
+            flesch_kincaid_grade(&tc),
+            ttr,
+            mtld,
+        ]);
+        if nc > 0 {
+            for (aff, neg) in matcher.count(note) {
+                concepts.push(aff as f64);
+                concepts.push(neg as f64);
+            }
+        }
+    }
+    Part {
+        counted: counter.finish(),
+        base,
+        concepts,
+    }
+}
+
+/// Computes every note feature of `notes` (see [`NoteFeatures`]).
+///
+/// Natively the notes are split over the machine's threads; the result is
+/// bit-identical to a single-threaded run (and to the WebAssembly build).
+pub fn analyze<S: AsRef<str> + Sync>(
+    notes: &[S],
+    concepts: &[Concept],
+    options: &NoteOptions,
+) -> Result<NoteFeatures> {
+    check_options(options)?;
+    let matcher = ConceptMatcher::new(concepts)?;
+    let n = notes.len();
+    let nc = concepts.len();
+    let parts = parallel::map_ranges(n, 1000, |r| note_pass(&notes[r], &matcher, options));
+    let mut base = Array2::<f64>::zeros((n, BASE_FEATURES.len()));
+    let mut concept_counts = Array2::<f64>::zeros((n, 2 * nc));
+    let mut row = 0;
+    for p in &parts {
+        for (k, b) in p.base.iter().enumerate() {
+            for (j, &x) in b.iter().enumerate() {
+                base[[row + k, j]] = x;
+            }
+            for j in 0..2 * nc {
+                concept_counts[[row + k, j]] = p.concepts[k * 2 * nc + j];
+            }
+        }
+        row += p.base.len();
+    }
+    let counted = tokens::merge(parts.into_iter().map(|p| p.counted).collect());
+    let v = vectors_from_counts(counted, options)?;
+    let k = v.singular_values.len();
 
     let mut names: Vec<String> = BASE_FEATURES.iter().map(|s| s.to_string()).collect();
     names.extend((1..=k).map(|j| format!("note.lsa{j}")));
@@ -240,7 +349,7 @@ pub fn analyze<S: AsRef<str>>(
             values[[i, j]] = base[[i, j]];
         }
         for j in 0..k {
-            values[[i, b + j]] = lat.scores[[i, j]];
+            values[[i, b + j]] = v.latent[[i, j]];
         }
         for j in 0..2 * concepts.len() {
             values[[i, b + k + j]] = concept_counts[[i, j]];
@@ -250,12 +359,12 @@ pub fn analyze<S: AsRef<str>>(
         names,
         kinds,
         values,
-        vocabulary: counted.vocabulary,
-        counts,
-        idf,
-        tfidf,
-        latent: lat.scores,
-        singular_values: lat.singular_values,
+        vocabulary: v.vocabulary,
+        counts: v.counts,
+        idf: v.idf,
+        tfidf: v.tfidf,
+        latent: v.latent,
+        singular_values: v.singular_values,
     })
 }
 

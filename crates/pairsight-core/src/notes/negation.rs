@@ -6,11 +6,7 @@
 //! or when a trailing cue follows it closely in the same clause. The cue lists
 //! below are our own.
 
-use std::sync::OnceLock;
-
-use aho_corasick::{AhoCorasick, AhoCorasickKind, MatchKind};
-
-use super::concepts::{boundary_matches, select_leftmost_longest, Normalized};
+use super::concepts::{select_leftmost_longest, Normalized};
 
 /// What a cue does.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -125,41 +121,23 @@ pub(crate) struct Cue {
     pub kind: CueKind,
 }
 
-struct CueSet {
-    ac: AhoCorasick,
-    lens: Vec<usize>,
+/// The cue phrases, in the order [`cues_from_matches`] expects their ids.
+pub(crate) fn cue_phrases() -> impl Iterator<Item = &'static str> {
+    CUES.iter().map(|c| c.0)
 }
 
-fn cue_set() -> Option<&'static CueSet> {
-    static SET: OnceLock<Option<CueSet>> = OnceLock::new();
-    SET.get_or_init(|| {
-        let ac = AhoCorasick::builder()
-            .match_kind(MatchKind::Standard)
-            .ascii_case_insensitive(true)
-            .kind(Some(AhoCorasickKind::DFA))
-            .build(CUES.iter().map(|c| c.0))
-            .ok()?;
-        Some(CueSet {
-            ac,
-            lens: CUES.iter().map(|c| c.0.len()).collect(),
-        })
-    })
-    .as_ref()
-}
-
-/// The cues of a normalized note, leftmost-longest and not overlapping, so
+/// The cues of a note from the raw boundary matches of [`cue_phrases`]
+/// (`id` = index into that list): leftmost-longest and not overlapping, so
 /// that "not ruled out" wins over "ruled out" and "no evidence of" over "no".
-pub(crate) fn find_cues(norm: &Normalized<'_>) -> Vec<Cue> {
-    let Some(set) = cue_set() else {
-        return Vec::new();
-    };
-    let mut raw = boundary_matches(&set.ac, &norm.text, &set.lens);
-    select_leftmost_longest(&mut raw)
+pub(crate) fn cues_from_matches(raw: &mut [(usize, usize, usize)]) -> Vec<Cue> {
+    select_leftmost_longest(raw)
         .into_iter()
-        .map(|(start, end, pid)| Cue {
-            start,
-            end,
-            kind: CUES[pid].1,
+        .filter_map(|(start, end, id)| {
+            CUES.get(id).map(|c| Cue {
+                start,
+                end,
+                kind: c.1,
+            })
         })
         .collect()
 }
@@ -189,10 +167,11 @@ pub(crate) fn negated(
         .map(|&(ms, me)| {
             live.iter().any(|c| match c.kind {
                 CueKind::Before | CueKind::Both if c.end <= ms => {
-                    norm.words_between(c.end, ms) <= WORDS_AFTER_CUE && !blocked(c.end, ms)
+                    norm.words_between_at_most(c.end, ms, WORDS_AFTER_CUE) && !blocked(c.end, ms)
                 }
                 CueKind::After | CueKind::Both if me <= c.start => {
-                    norm.words_between(me, c.start) <= WORDS_BEFORE_CUE && !blocked(me, c.start)
+                    norm.words_between_at_most(me, c.start, WORDS_BEFORE_CUE)
+                        && !blocked(me, c.start)
                 }
                 _ => false,
             })

@@ -311,3 +311,81 @@ fn corpus_diversity_equals_per_note_diversity() {
         assert_eq!(f.values[[i, cm]], mtld(&w), "note {i}");
     }
 }
+
+#[test]
+fn split_over_threads_equals_one_pass() {
+    // Enough notes for several ranges; per-note features and counts must not
+    // depend on how the notes were split.
+    let frags = [
+        "Lives alone.",
+        "Denies falls; uses a walker.",
+        "Confused, café ½ x",
+        "",
+        "No dementia. Fell twice",
+    ];
+    let notes: Vec<String> = (0..5000)
+        .map(|i| format!("{} {} note{}", frags[i % 5], frags[(i / 5) % 5], i % 97))
+        .collect();
+    let f = analyze(
+        &notes,
+        &demo_concepts(),
+        &NoteOptions {
+            latent_dims: 3,
+            ..Default::default()
+        },
+    )
+    .unwrap();
+    let whole = super::tokens::count_terms(&notes, &NoteOptions::default());
+    assert_eq!(f.vocabulary, whole.vocabulary);
+    assert_eq!(f.counts.indptr, whole.indptr);
+    assert_eq!(f.counts.indices, whole.indices);
+    let m = ConceptMatcher::new(&demo_concepts()).unwrap();
+    let alone = f.column("concept.lives_alone").unwrap();
+    let fall_neg = f.column("concept.fall.negated").unwrap();
+    for i in (0..notes.len()).step_by(37) {
+        let one = analyze(
+            &notes[i..i + 1],
+            &[],
+            &NoteOptions {
+                latent_dims: 0,
+                ..Default::default()
+            },
+        )
+        .unwrap();
+        for j in 0..BASE_FEATURES.len() {
+            assert_eq!(f.values[[i, j]], one.values[[0, j]], "note {i} feature {j}");
+        }
+        let c = m.count(&notes[i]);
+        assert_eq!(f.values[[i, alone]], c[0].0 as f64);
+        assert_eq!(f.values[[i, fall_neg]], c[2].1 as f64);
+    }
+}
+
+#[test]
+fn vectorize_equals_analyze_vectors() {
+    let notes = [
+        "Lives alone. Denies falls.",
+        "",
+        "Recent fall; confused. Lives with son.",
+        "walker walker frame",
+    ];
+    let o = NoteOptions {
+        latent_dims: 2,
+        bigrams: true,
+        ..Default::default()
+    };
+    let f = analyze(&notes, &[], &o).unwrap();
+    let v = vectorize(&notes, &o).unwrap();
+    assert_eq!(v.vocabulary, f.vocabulary);
+    assert_eq!(v.counts, f.counts);
+    assert_eq!(v.tfidf, f.tfidf);
+    assert_eq!(v.latent, f.latent);
+    assert!(vectorize(
+        &notes,
+        &NoteOptions {
+            latent_dims: 100_000,
+            ..Default::default()
+        }
+    )
+    .is_err());
+}

@@ -239,12 +239,31 @@ impl TermMaker {
     /// order; with bigrams on, each pair of adjacent kept unigrams (joined by one
     /// space, after stop-word removal as is usual for n-grams) follows its
     /// second word. Returns the number of unigrams.
+    #[cfg(test)]
     pub(crate) fn terms(&self, lower: &str, mut f: impl FnMut(&str)) -> usize {
+        self.terms_and_runs(lower, |t, _| f(t), None)
+    }
+
+    /// [`TermMaker::terms`], also collecting every run of word characters
+    /// (any length) into `runs` for the word measures; `f` also gets, for a
+    /// unigram, the index of the run it came from.
+    pub(crate) fn terms_and_runs(
+        &self,
+        lower: &str,
+        mut f: impl FnMut(&str, Option<usize>),
+        mut runs: Option<&mut Vec<(usize, usize)>>,
+    ) -> usize {
         let mut unigrams = 0usize;
+        let mut run_index = 0usize;
         let mut prev = String::new();
         let mut pair = String::new();
         let mut have_prev = false;
         for_each_word_run(lower, |s, e| {
+            if let Some(r) = runs.as_deref_mut() {
+                r.push((s, e));
+            }
+            let this_run = run_index;
+            run_index += 1;
             let tok = &lower[s..e];
             // Character count, not bytes: "é" is one character.
             if self.min_len > 1 && (tok.len() < 2 || tok.chars().nth(1).is_none()) {
@@ -258,14 +277,14 @@ impl TermMaker {
                 None => Cow::Borrowed(tok),
             };
             unigrams += 1;
-            f(&term);
+            f(&term, Some(this_run));
             if self.bigrams {
                 if have_prev {
                     pair.clear();
                     pair.push_str(&prev);
                     pair.push(' ');
                     pair.push_str(&term);
-                    f(&pair);
+                    f(&pair, None);
                 }
                 prev.clear();
                 prev.push_str(&term);
@@ -310,6 +329,13 @@ impl Hasher for FastHasher {
 
 pub(crate) type FastMap<K, V> = HashMap<K, V, BuildHasherDefault<FastHasher>>;
 
+/// Where [`TermCounter::add_with_runs`] puts the runs of word characters
+/// and the term id of each run.
+pub(crate) type WordRuns<'a> = (&'a mut Vec<(usize, usize)>, &'a mut Vec<u32>);
+
+/// Marks a run of word characters that is not itself a term.
+pub(crate) const NO_TERM: u32 = u32::MAX;
+
 /// Term counts of a corpus: the sorted vocabulary and, per note, sorted
 /// `(column, count)` pairs.
 pub(crate) struct Counted {
@@ -345,7 +371,24 @@ impl TermCounter {
     }
 
     /// Adds one note, already lowercased; returns its number of unigrams.
+    #[cfg(test)]
     pub(crate) fn add(&mut self, lower: &str) -> usize {
+        self.add_with_runs(lower, None)
+    }
+
+    /// [`TermCounter::add`], also collecting the runs of word characters
+    /// and, for each run, the id of the unigram term that is exactly that
+    /// run's text ([`NO_TERM`] when there is none, or when stemming changes
+    /// terms), so the word measures can reuse the lookup.
+    pub(crate) fn add_with_runs(&mut self, lower: &str, words: Option<WordRuns<'_>>) -> usize {
+        let pure = self.maker.stemmer.is_none();
+        let (runs, mut run_terms) = match words {
+            Some((r, t)) => {
+                t.clear();
+                (Some(r), Some(t))
+            }
+            None => (None, None),
+        };
         let TermCounter {
             maker,
             ids,
@@ -354,19 +397,29 @@ impl TermCounter {
             ..
         } = self;
         row_ids.clear();
-        let n = maker.terms(lower, |term| {
-            let id = match ids.get(term) {
-                Some(&id) => id,
-                None => {
-                    let id = order.len() as u32;
-                    let key: Box<str> = term.into();
-                    ids.insert(key.clone(), id);
-                    order.push(key);
-                    id
+        let n = maker.terms_and_runs(
+            lower,
+            |term, run| {
+                let id = match ids.get(term) {
+                    Some(&id) => id,
+                    None => {
+                        let id = order.len() as u32;
+                        let key: Box<str> = term.into();
+                        ids.insert(key.clone(), id);
+                        order.push(key);
+                        id
+                    }
+                };
+                row_ids.push(id);
+                if let (Some(k), Some(rt), true) = (run, run_terms.as_deref_mut(), pure) {
+                    if rt.len() <= k {
+                        rt.resize(k + 1, NO_TERM);
+                    }
+                    rt[k] = id;
                 }
-            };
-            row_ids.push(id);
-        });
+            },
+            runs,
+        );
         self.row_ids.sort_unstable();
         let r = &self.row_ids;
         let mut k = 0;
@@ -428,6 +481,52 @@ impl TermCounter {
     }
 }
 
+/// Joins the counts of consecutive runs of notes into one, with one sorted
+/// vocabulary. Each part's vocabulary is sorted already, so each row's
+/// columns stay in increasing order after renumbering.
+pub(crate) fn merge(mut parts: Vec<Counted>) -> Counted {
+    if parts.len() == 1 {
+        if let Some(p) = parts.pop() {
+            return p;
+        }
+    }
+    let mut all: Vec<(&str, usize, usize)> = Vec::new();
+    for (pi, p) in parts.iter().enumerate() {
+        all.extend(
+            p.vocabulary
+                .iter()
+                .enumerate()
+                .map(|(k, t)| (t.as_str(), pi, k)),
+        );
+    }
+    all.sort_unstable();
+    let mut vocabulary: Vec<String> = Vec::new();
+    let mut maps: Vec<Vec<u32>> = parts.iter().map(|p| vec![0; p.vocabulary.len()]).collect();
+    for &(t, pi, k) in &all {
+        if vocabulary.last().map(String::as_str) != Some(t) {
+            vocabulary.push(t.to_string());
+        }
+        maps[pi][k] = (vocabulary.len() - 1) as u32;
+    }
+    let mut indptr = vec![0usize];
+    let mut indices = Vec::new();
+    let mut counts = Vec::new();
+    for (p, map) in parts.iter().zip(&maps) {
+        for r in 0..p.indptr.len() - 1 {
+            let (a, b) = (p.indptr[r], p.indptr[r + 1]);
+            indices.extend(p.indices[a..b].iter().map(|&i| map[i as usize]));
+            counts.extend_from_slice(&p.counts[a..b]);
+            indptr.push(indices.len());
+        }
+    }
+    Counted {
+        vocabulary,
+        indptr,
+        indices,
+        counts,
+    }
+}
+
 /// Counts the terms of every note.
 #[cfg(test)]
 pub(crate) fn count_terms<S: AsRef<str>>(notes: &[S], options: &NoteOptions) -> Counted {
@@ -445,8 +544,13 @@ pub(crate) fn count_terms<S: AsRef<str>>(notes: &[S], options: &NoteOptions) -> 
 pub(crate) fn words(text: &str) -> Vec<(usize, usize)> {
     let mut runs: Vec<(usize, usize)> = Vec::new();
     for_each_word_run(text, |s, e| runs.push((s, e)));
+    words_from_runs(text, &runs)
+}
+
+/// [`words`] from the runs of word characters of `text`.
+pub(crate) fn words_from_runs(text: &str, runs: &[(usize, usize)]) -> Vec<(usize, usize)> {
     let mut out: Vec<(usize, usize)> = Vec::with_capacity(runs.len());
-    for (s, e) in runs {
+    for &(s, e) in runs {
         if let Some(last) = out.last_mut() {
             let gap = &text[last.1..s];
             if matches!(gap, "'" | "\u{2019}" | "-" | "\u{2010}") {
@@ -517,5 +621,21 @@ mod tests {
         assert_eq!(c.indptr, [0, 1, 1, 2]);
         assert_eq!(c.indices, [0, 1]);
         assert_eq!(c.counts, [1, 1]);
+    }
+
+    #[test]
+    fn merged_parts_equal_one_pass() {
+        let notes = ["zz yy xx", "", "aa zz zz", "bb", "yy aa cc dd", "xx"];
+        let whole = count_terms(&notes, &NoteOptions::default());
+        for cut in [1, 2, 3, 5] {
+            let m = merge(vec![
+                count_terms(&notes[..cut], &NoteOptions::default()),
+                count_terms(&notes[cut..], &NoteOptions::default()),
+            ]);
+            assert_eq!(m.vocabulary, whole.vocabulary);
+            assert_eq!(m.indptr, whole.indptr);
+            assert_eq!(m.indices, whole.indices);
+            assert_eq!(m.counts, whole.counts);
+        }
     }
 }

@@ -61,7 +61,8 @@ pub fn packet_html(c: &PacketContent) -> Result<String> {
          <meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n\
          <meta name=\"generator\" content=\"pairsight {}\">\n\
          <title>{} · {}</title>\n<style>{}</style>\n</head>\n<body>\n",
-        e(&csp),
+        // Our own text (keywords and base64 hashes): no quote to escape.
+        csp,
         e(crate::VERSION),
         e(&c.title),
         e(&c.reviewer),

@@ -419,3 +419,6 @@ fn round_key(
         measures,
     })
 }
+
+#[cfg(test)]
+mod tests;

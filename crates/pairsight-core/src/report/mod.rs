@@ -234,7 +234,7 @@ pub fn report_html(
          <meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n\
          <meta name=\"generator\" content=\"pairsight {}\">\n\
          <title>{}</title>\n<style>{}</style>\n</head>\n<body>\n",
-        escape_html(REPORT_CSP),
+        REPORT_CSP,
         escape_html(crate::VERSION),
         escape_html(title),
         REPORT_STYLE
@@ -1243,3 +1243,6 @@ fn cautions_section(pg: &mut Page, reviewed: bool, notes: bool) {
     pg.raw("</ul>\n");
     pg.end_section();
 }
+
+#[cfg(test)]
+pub(crate) mod tests;
