@@ -66,7 +66,7 @@ test('a round drawn in the browser is rated in two packets and merged on the Rev
     const got = await downloaded(page, page.locator(`[data-testid="download-packet"][data-reviewer="${who}"]`));
     assert.equal(got.name, `packet-${who}.html`);
     const html = got.bytes.toString('utf8');
-    assert.doesNotMatch(html, /notes-aware|structured|early_plan|readmit_30d/, 'the packet names no design, group or outcome');
+    assert.doesNotMatch(html, /notes-aware|notes-mahalanobis|early_plan|readmit_30d|length_of_stay/, 'the packet names no design, group or outcome');
     saved[who] = path.join(dir, got.name);
     await got.download.saveAs(saved[who]);
   }
