@@ -83,9 +83,6 @@ test('a round drawn in the browser is rated in two packets and merged on the Rev
   // Back to the analyst: add both files (the key of this visit is still in memory).
   await page.bringToFront();
   await page.getByTestId('import-ratings').setInputFiles([a.csvPath, b.csvPath]);
-  await page.waitForTimeout(3000);
-  console.log('DEBUG', await page.getByTestId('import-panel').textContent(), await page.getByTestId('review-results').textContent());
-  await screenshot(page, 'review-debug');
   await page.locator('[data-testid="agreement-table"], [data-testid="error-banner"]:not([hidden])').first().waitFor();
   assert.equal(await page.getByTestId('error-banner').isHidden(), true, await page.getByTestId('error-banner').textContent());
   assert.match(await page.getByTestId('merge-summary').textContent(), new RegExp(`^${2 * a.n} ratings accepted from 2 files`));

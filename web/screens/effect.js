@@ -140,7 +140,7 @@ function boundsTable(b) {
       el(
         'tbody',
         {},
-        b.points.map((p) =>
+        (b.points ?? []).map((p) =>
           el(
             'tr',
             { class: p.p_upper > b.alpha ? 'over' : '' },

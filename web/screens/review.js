@@ -367,7 +367,7 @@ const ci = (lo, hi, d = 3) => (Number.isFinite(lo) && Number.isFinite(hi) ? inte
 
 function agreementTable(ag, level) {
   const rows = [];
-  for (const k of ag.kappas) {
+  for (const k of ag.kappas ?? []) {
     for (const [w, v] of [['linear', k.linear], ['quadratic', k.quadratic]]) {
       rows.push([`weighted kappa (${w}), ${k.first} and ${k.second}`, v ? fixed(v.kappa) : '—', v ? ci(v.ci_low, v.ci_high) : '—', String(v ? v.n : k.pairs)]);
     }
@@ -375,7 +375,7 @@ function agreementTable(ag, level) {
   for (const [name, a] of [['Krippendorff’s alpha, ordinal', ag.alpha_ordinal], ['Krippendorff’s alpha, interval', ag.alpha_interval]]) {
     if (a) rows.push([name, fixed(a.alpha), ci(a.ci_low, a.ci_high), String(a.n_units)]);
   }
-  if (ag.icc) for (const x of ag.icc.rows) rows.push([`intraclass correlation ${x.label}`, fixed(x.icc), ci(x.ci_low, x.ci_high), String(ag.icc.n_units)]);
+  if (ag.icc) for (const x of ag.icc.rows ?? []) rows.push([`intraclass correlation ${x.label}`, fixed(x.icc), ci(x.ci_low, x.ci_high), String(ag.icc.n_units)]);
   return table('agreement-table', `Agreement between reviewers (Cohen 1968; Krippendorff 2004; Shrout & Fleiss 1979), ${level} intervals`, ['Statistic', 'Value', `${level} interval`, 'Pairs'], rows);
 }
 
@@ -388,7 +388,7 @@ function drawResults(panel) {
   const parts = [
     el('h2', { text: `Round ${m.round_id}` }),
     el('p', { 'data-testid': 'merge-summary', text: `${m.accepted} ratings accepted from ${review.files.length} file${review.files.length === 1 ? '' : 's'}; ${m.pairs_in_round} pairs in the round; packets written for ${m.reviewers.join(', ')}.` }),
-    issuesList(m.issues),
+    issuesList(m.issues ?? []),
   ];
   const r = m.results;
   if (r) {
@@ -399,9 +399,9 @@ function drawResults(panel) {
       el('p', { class: 'hint', text: `${ag.pairs_rated} of ${r.pairs_in_round} pairs rated; ${ag.pairs_complete} by every reviewer (${ag.reviewers.join(', ')}).` }),
       agreementTable(ag, level),
     );
-    for (const k of ag.kappas) for (const n of k.notes) parts.push(el('p', { class: 'hint', text: `${k.first} and ${k.second}: ${n}` }));
-    for (const n of ag.notes) parts.push(el('p', { class: 'hint', text: n }));
-    for (const w of r.warnings) parts.push(el('p', { class: 'hint', text: w }));
+    for (const k of ag.kappas ?? []) for (const n of k.notes ?? []) parts.push(el('p', { class: 'hint', text: `${k.first} and ${k.second}: ${n}` }));
+    for (const n of ag.notes ?? []) parts.push(el('p', { class: 'hint', text: n }));
+    for (const w of r.warnings ?? []) parts.push(el('p', { class: 'hint', text: w }));
     const c = r.comparison;
     parts.push(
       el('h3', { text: 'Rated similarity per design' }),
@@ -409,7 +409,7 @@ function drawResults(panel) {
         'comparison-table',
         `Mean of each pair’s mean rating, with ${level} interval; share of pairs rated ${c.level} or more; Spearman’s rank correlation of the design’s distance with the rating`,
         ['Design', 'Pairs rated', 'Mean rating', `${level} interval`, `Share ≥ ${c.level}`, 'Share interval', 'Distance vs rating (rho, p, n)'],
-        c.designs.map((d) => [
+        (c.designs ?? []).map((d) => [
           d.design,
           `${d.pairs_rated} of ${d.pairs_drawn}`,
           fixed(d.mean, 2),
@@ -420,7 +420,7 @@ function drawResults(panel) {
         ]),
       ),
     );
-    if (c.contrasts.length) {
+    if (c.contrasts?.length) {
       parts.push(
         table(
           'contrast-table',
@@ -430,7 +430,7 @@ function drawResults(panel) {
         ),
       );
     }
-    if (c.measures.length) {
+    if (c.measures?.length) {
       parts.push(
         table(
           'measure-table',
@@ -440,7 +440,7 @@ function drawResults(panel) {
         ),
       );
     }
-    if (c.cautions.length) parts.push(el('aside', { class: 'caution', role: 'note' }, c.cautions.map((w) => el('p', { text: w }))));
+    if (c.cautions?.length) parts.push(el('aside', { class: 'caution', role: 'note' }, c.cautions.map((w) => el('p', { text: w }))));
   }
   replaceChildren(panel, el('section', { class: 'panel' }, parts));
   if (r) showNotice(`Ratings merged: ${m.accepted} ratings of round ${m.round_id}.`);
