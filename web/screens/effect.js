@@ -53,7 +53,7 @@ function estimateRow(label, e) {
     el('td', { class: 'num', text: fixed(e.estimate) }),
     el('td', { class: 'num', text: interval(e.ci_low, e.ci_high) }),
     el('td', { class: 'num', text: pText(e.p_value) }),
-    el('td', { text: e.test || '—' }),
+    el('td', { class: 'test-name', text: e.test || '—' }),
     el('td', { class: 'num', text: e.n_sets ? String(e.n_sets) : '—' }),
     el('td', { class: 'num', text: String(e.n_treated) }),
     el('td', { class: 'num', text: String(e.n_comparison_units) }),

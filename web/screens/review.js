@@ -408,15 +408,15 @@ function drawResults(panel) {
       table(
         'comparison-table',
         `Mean of each pair’s mean rating, with ${level} interval; share of pairs rated ${c.level} or more; Spearman’s rank correlation of the design’s distance with the rating`,
-        ['Design', 'Pairs rated', 'Mean rating', `${level} interval`, `Share ≥ ${c.level}`, 'Share interval', 'Distance vs rating (rho, p, n)'],
+        ['Design', 'Pairs rated', 'Mean rating', `${level} interval`, `Share ≥ ${c.level} (interval)`, 'Distance vs rating'],
         (c.designs ?? []).map((d) => [
           d.design,
           `${d.pairs_rated} of ${d.pairs_drawn}`,
           fixed(d.mean, 2),
           ci(d.ci_low, d.ci_high, 2),
-          Number.isFinite(d.share_alike) ? `${Math.round(100 * d.share_alike)}%` : '—',
-          Number.isFinite(d.share_ci_low) && Number.isFinite(d.share_ci_high) ? `${Math.round(100 * d.share_ci_low)}–${Math.round(100 * d.share_ci_high)}%` : '—',
-          d.distance_vs_rating ? `${fixed(d.distance_vs_rating.rho, 2)}, p ${pText(d.distance_vs_rating.p_value)}, n ${d.distance_vs_rating.n}` : '—',
+          (Number.isFinite(d.share_alike) ? `${Math.round(100 * d.share_alike)}%` : '—') +
+            (Number.isFinite(d.share_ci_low) && Number.isFinite(d.share_ci_high) ? ` (${Math.round(100 * d.share_ci_low)}–${Math.round(100 * d.share_ci_high)}%)` : ''),
+          d.distance_vs_rating ? `rho ${fixed(d.distance_vs_rating.rho, 2)}, p ${pText(d.distance_vs_rating.p_value)}` : '—',
         ]),
       ),
     );
