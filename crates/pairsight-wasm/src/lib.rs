@@ -19,6 +19,8 @@
 
 pub mod charts;
 mod convert;
+pub mod effect;
+pub mod review;
 pub mod session;
 
 pub use convert::{error_to_js, to_js, ErrorShape};
@@ -201,4 +203,61 @@ pub fn demo_study() -> Result<String, JsValue> {
     let demo = pairsight_core::demo::generate(&pairsight_core::demo::DemoParams::default())
         .map_err(|e| error_to_js(&e))?;
     Ok(demo.study_toml)
+}
+
+/// The caution shown beside every estimate (the core's words).
+#[wasm_bindgen]
+pub fn effect_caution() -> String {
+    pairsight_core::run::CAUTION.to_string()
+}
+
+/// Paint the sensitivity plot of design `name`, outcome `outcome` on `canvas`.
+#[wasm_bindgen]
+pub fn session_draw_sensitivity(
+    canvas: &OffscreenCanvas,
+    name: &str,
+    outcome: &str,
+) -> Result<(), JsValue> {
+    effect::paint(canvas, name, outcome).map_err(js_err)
+}
+
+/// The sensitivity plot of design `name`, outcome `outcome` as SVG text.
+#[wasm_bindgen]
+pub fn session_sensitivity_svg(
+    name: &str,
+    outcome: &str,
+    width: u32,
+    height: u32,
+) -> Result<String, JsValue> {
+    effect::svg(name, outcome, width, height).map_err(js_err)
+}
+
+/// The self-contained HTML report ([`effect::ReportRequest`]).
+#[wasm_bindgen]
+pub fn session_report(request: JsValue) -> Result<String, JsValue> {
+    let req: effect::ReportRequest = from_js(request, "report")?;
+    effect::report(&req).map_err(js_err)
+}
+
+/// Draw a review round and write its packets and key
+/// ([`review::RoundRequest`] in, [`review::RoundMade`] out).
+#[wasm_bindgen]
+pub fn session_round(request: JsValue) -> Result<JsValue, JsValue> {
+    let req: review::RoundRequest = from_js(request, "round")?;
+    to_js(&review::make_round(&req).map_err(js_err)?)
+}
+
+/// The default packet options (scale with its anchors, draw settings), so
+/// the page shows the core's defaults rather than keeping its own copy.
+#[wasm_bindgen]
+pub fn packet_defaults() -> Result<JsValue, JsValue> {
+    to_js(&pairsight_core::packet::PacketOptions::default())
+}
+
+/// Merge ratings files against a key and compute agreement and the design
+/// comparison ([`review::RatingsUpload`] in, [`review::MergeView`] out).
+#[wasm_bindgen]
+pub fn review_merge(upload: JsValue) -> Result<JsValue, JsValue> {
+    let up: review::RatingsUpload = from_js(upload, "ratings")?;
+    to_js(&review::results_of(&up).map_err(js_err)?)
 }
