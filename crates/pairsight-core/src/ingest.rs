@@ -12,6 +12,7 @@
 
 use crate::{Error, Result};
 use serde::Serialize;
+use std::borrow::Cow;
 use std::collections::BTreeSet;
 
 /// What a column holds, as inferred from its non-missing cells.
@@ -50,13 +51,92 @@ pub fn parse_number(cell: &str) -> Option<f64> {
     t.parse::<f64>().ok().filter(|v| v.is_finite())
 }
 
+/// A column's cells, stored compactly: one text buffer and where each cell
+/// ends. A table of millions of short cells then costs about its text plus
+/// four bytes a cell, instead of a separate allocation per cell.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct Cells {
+    text: String,
+    ends: Vec<u32>,
+}
+
+impl Cells {
+    /// No cells.
+    pub fn new() -> Cells {
+        Cells::default()
+    }
+    /// Number of cells.
+    pub fn len(&self) -> usize {
+        self.ends.len()
+    }
+    /// Whether there are no cells.
+    pub fn is_empty(&self) -> bool {
+        self.ends.is_empty()
+    }
+    /// The cell at `i`, if there is one.
+    pub fn get(&self, i: usize) -> Option<&str> {
+        let end = *self.ends.get(i)? as usize;
+        let start = if i == 0 { 0 } else { self.ends[i - 1] as usize };
+        self.text.get(start..end)
+    }
+    /// Cells in order.
+    pub fn iter(&self) -> impl ExactSizeIterator<Item = &str> + DoubleEndedIterator + '_ {
+        (0..self.ends.len()).map(move |i| {
+            let start = if i == 0 { 0 } else { self.ends[i - 1] as usize };
+            &self.text[start..self.ends[i] as usize]
+        })
+    }
+    /// Append a cell. A column's text is limited to 4 GiB (offsets are 32
+    /// bits, which also keeps the store small in WebAssembly).
+    pub fn push(&mut self, cell: &str) -> Result<()> {
+        let end = u32::try_from(self.text.len() + cell.len()).map_err(|_| {
+            Error::data(
+                Some(self.ends.len() + 2),
+                None,
+                "a column holds more than 4 GiB of text; split the file",
+            )
+        })?;
+        self.text.push_str(cell);
+        self.ends.push(end);
+        Ok(())
+    }
+    /// Total bytes of text held.
+    pub fn text_len(&self) -> usize {
+        self.text.len()
+    }
+}
+
+impl std::ops::Index<usize> for Cells {
+    type Output = str;
+    fn index(&self, i: usize) -> &str {
+        match self.get(i) {
+            Some(c) => c,
+            None => panic!("cell {i} of a column of {} cells", self.len()),
+        }
+    }
+}
+
+impl<S: AsRef<str>> FromIterator<S> for Cells {
+    /// Collect cells; for tests and callers with small tables (a column
+    /// beyond 4 GiB of text is cut short, which only [`Cells::push`] reports).
+    fn from_iter<I: IntoIterator<Item = S>>(iter: I) -> Cells {
+        let mut c = Cells::new();
+        for s in iter {
+            if c.push(s.as_ref()).is_err() {
+                break;
+            }
+        }
+        c
+    }
+}
+
 /// One column: its header and its cells as text, with the inferred kind.
 #[derive(Debug, Clone)]
 pub struct Column {
     /// Header text, trimmed.
     pub name: String,
     /// Cells in row order, as read.
-    pub cells: Vec<String>,
+    pub cells: Cells,
     /// Inferred kind; callers may override it.
     pub kind: Kind,
     /// How the column writes numbers (decimal comma, grouped thousands).
@@ -79,7 +159,7 @@ impl Column {
     }
     /// Whether the cell at `row` is missing.
     pub fn is_missing(&self, row: usize) -> bool {
-        self.cells.get(row).is_none_or(|c| is_missing(c))
+        self.cells.get(row).is_none_or(is_missing)
     }
     /// Distinct non-missing values, trimmed, in sorted order (numeric order
     /// when all are numbers, else text order).
@@ -239,9 +319,10 @@ fn edit_distance(a: &str, b: &str) -> usize {
 
 /// Text decoded from a file's bytes, with how it was read.
 #[derive(Debug, Clone, PartialEq)]
-pub struct Decoded {
-    /// The text, without a byte-order mark.
-    pub text: String,
+pub struct Decoded<'a> {
+    /// The text, without a byte-order mark; borrowed from the bytes when
+    /// they are UTF-8 already.
+    pub text: Cow<'a, str>,
     /// Name of the encoding read: `UTF-8`, `UTF-16LE`, `UTF-16BE`,
     /// `Windows-1252`, or `UTF-8 with Windows-1252 bytes`.
     pub encoding: &'static str,
@@ -262,7 +343,7 @@ pub struct Decoded {
 ///   sequences, as when rows from two exports are pasted together: then only
 ///   the bytes that are not UTF-8 are read as Windows-1252, so neither part
 ///   is garbled.
-pub fn decode(bytes: &[u8]) -> Result<Decoded> {
+pub fn decode(bytes: &[u8]) -> Result<Decoded<'_>> {
     use encoding_rs::{UTF_16BE, UTF_16LE, WINDOWS_1252};
     let (body, utf16) = if let Some(b) = bytes.strip_prefix(b"\xEF\xBB\xBF") {
         (b, None)
@@ -276,7 +357,7 @@ pub fn decode(bytes: &[u8]) -> Result<Decoded> {
     if let Some((enc, name)) = utf16 {
         let (text, had_errors) = enc.decode_without_bom_handling(body);
         return Ok(Decoded {
-            text: text.into_owned(),
+            text: Cow::Owned(text.into_owned()),
             encoding: name,
             notice: had_errors
                 .then(|| format!("some bytes were not valid {name} and were replaced by \u{FFFD}")),
@@ -291,7 +372,7 @@ pub fn decode(bytes: &[u8]) -> Result<Decoded> {
     }
     if let Ok(s) = std::str::from_utf8(body) {
         return Ok(Decoded {
-            text: s.to_string(),
+            text: Cow::Borrowed(s),
             encoding: "UTF-8",
             notice: None,
         });
@@ -304,7 +385,7 @@ pub fn decode(bytes: &[u8]) -> Result<Decoded> {
     if !has_utf8_multibyte {
         let (text, _) = WINDOWS_1252.decode_without_bom_handling(body);
         return Ok(Decoded {
-            text: text.into_owned(),
+            text: Cow::Owned(text.into_owned()),
             encoding: "Windows-1252",
             notice: Some(format!(
                 "the file is not UTF-8 (first at line {line}); it was read as Windows-1252 (Latin-1)"
@@ -322,7 +403,7 @@ pub fn decode(bytes: &[u8]) -> Result<Decoded> {
         }
     }
     Ok(Decoded {
-        text,
+        text: Cow::Owned(text),
         encoding: "UTF-8 with Windows-1252 bytes",
         notice: Some(format!(
             "the file is UTF-8 except for {foreign} byte(s), the first at line {line}, which were read as Windows-1252 (Latin-1); check those cells"
@@ -510,7 +591,7 @@ fn comma_number(t: &str) -> bool {
 /// * tab-delimited files: decimal commas when some comma is followed by other
 ///   than three digits, thousands when some cell also has a decimal point or
 ///   two groups; a column of cells like `1,234` alone stays unread.
-fn number_format(cells: &[String], delimiter: u8) -> NumberFormat {
+fn number_format(cells: &Cells, delimiter: u8) -> NumberFormat {
     let present = || cells.iter().map(|c| c.trim()).filter(|c| !is_missing(c));
     if !present().any(|c| c.contains(',')) {
         return NumberFormat::Point;
@@ -636,14 +717,7 @@ pub fn read_table(bytes: &[u8]) -> Result<Table> {
     }
     let names: Vec<String> = rec.iter().map(|h| h.trim().to_string()).collect();
     if names.len() == 1 {
-        let shown: String = names[0].chars().take(60).collect();
-        return Err(Error::data(
-            Some(1),
-            None,
-            format!(
-                "the header holds a single column (\"{shown}\"); pairsight reads files whose columns are separated by commas, semicolons or tabs"
-            ),
-        ));
+        return Err(single_column(&names[0]));
     }
     let mut first_of: std::collections::BTreeMap<&str, usize> = std::collections::BTreeMap::new();
     for (i, n) in names.iter().enumerate() {
@@ -667,7 +741,7 @@ pub fn read_table(bytes: &[u8]) -> Result<Table> {
             ));
         }
     }
-    let mut cells: Vec<Vec<String>> = vec![Vec::new(); names.len()];
+    let mut cells: Vec<Cells> = vec![Cells::new(); names.len()];
     let mut row = 1;
     let mut last = (text.len(), 1);
     loop {
@@ -710,7 +784,7 @@ pub fn read_table(bytes: &[u8]) -> Result<Table> {
             ));
         }
         for (col, field) in cells.iter_mut().zip(rec.iter()) {
-            col.push(field.to_string());
+            col.push(field)?;
         }
         last = (start, row);
     }
@@ -724,6 +798,9 @@ pub fn read_table(bytes: &[u8]) -> Result<Table> {
         if cells[last].iter().all(|c| c.trim().is_empty()) {
             names.pop();
             cells.pop();
+            if names.len() == 1 {
+                return Err(single_column(&names[0]));
+            }
             notices.push(
                 "every line ends with a delimiter; the resulting empty, unnamed last column was left out"
                     .to_string(),
@@ -753,7 +830,7 @@ pub fn read_table(bytes: &[u8]) -> Result<Table> {
                     "column \"{name}\": commas group thousands (\"1,250.5\" is read as 1250.5)"
                 )),
             }
-            let kind = infer_kind_as(&cells, format);
+            let kind = infer_kind_in(&cells, format);
             Column {
                 name,
                 cells,
@@ -770,6 +847,17 @@ pub fn read_table(bytes: &[u8]) -> Result<Table> {
     })
 }
 
+fn single_column(name: &str) -> Error {
+    let shown: String = name.chars().take(60).collect();
+    Error::data(
+        Some(1),
+        None,
+        format!(
+            "the header holds a single column (\"{shown}\"); pairsight reads files whose columns are separated by commas, semicolons or tabs"
+        ),
+    )
+}
+
 fn empty_header(i: usize) -> Error {
     Error::data(
         Some(1),
@@ -782,8 +870,8 @@ fn empty_header(i: usize) -> Error {
 }
 
 /// Infer a column's kind from its cells, numbers written with a point.
-pub fn infer_kind(cells: &[String]) -> Kind {
-    infer_kind_as(cells, NumberFormat::Point)
+pub fn infer_kind<S: AsRef<str>>(cells: &[S]) -> Kind {
+    infer_kind_in(&cells.iter().collect(), NumberFormat::Point)
 }
 
 /// Infer a column's kind from its cells (common practice, stated in the user
@@ -795,8 +883,8 @@ pub fn infer_kind(cells: &[String]) -> Kind {
 /// numbers: a comma inside, out of range) is numeric too, so that the cells
 /// that are not numbers are reported, by row, when the column is used, rather
 /// than silently turning each number into a category of its own.
-pub fn infer_kind_as(cells: &[String], format: NumberFormat) -> Kind {
-    let present: Vec<&str> = cells
+pub fn infer_kind_in(cells: &Cells, format: NumberFormat) -> Kind {
+    let mut present: Vec<&str> = cells
         .iter()
         .map(|c| c.trim())
         .filter(|c| !is_missing(c))
@@ -824,10 +912,14 @@ pub fn infer_kind_as(cells: &[String], format: NumberFormat) -> Kind {
             Kind::Numeric
         };
     }
-    let distinct: BTreeSet<&str> = present.iter().copied().collect();
-    let mean_len =
-        present.iter().map(|c| c.chars().count()).sum::<usize>() as f64 / present.len() as f64;
-    if mean_len > 40.0 || (distinct.len() > 50 && distinct.len() * 2 > present.len()) {
+    let n = present.len();
+    let mean_len = present.iter().map(|c| c.chars().count()).sum::<usize>() as f64 / n as f64;
+    // Sorting in place counts distinct values without a second collection,
+    // which matters for an identifier column of millions of rows.
+    present.sort_unstable();
+    present.dedup();
+    let distinct = present.len();
+    if mean_len > 40.0 || (distinct > 50 && distinct * 2 > n) {
         Kind::Text
     } else {
         Kind::Categorical
@@ -867,7 +959,7 @@ mod tests {
         let t = read_table(b"\xEF\xBB\xBFid;note\r\n1;\"two\r\nlines\"\r\n2;b\r\n").unwrap();
         assert_eq!(t.delimiter, ';');
         assert_eq!(t.columns[0].name, "id");
-        assert_eq!(t.columns[1].cells[0], "two\r\nlines");
+        assert_eq!(&t.columns[1].cells[0], "two\r\nlines");
         assert_eq!(t.n_rows(), 2);
     }
 
@@ -876,7 +968,7 @@ mod tests {
         let t = read_table(b"id\tname\n1\tJos\xe9\n").unwrap();
         assert_eq!(t.delimiter, '\t');
         assert_eq!(t.encoding, "Windows-1252");
-        assert_eq!(t.columns[1].cells[0], "José");
+        assert_eq!(&t.columns[1].cells[0], "José");
     }
 
     #[test]
@@ -1016,6 +1108,10 @@ mod tests {
 
     #[test]
     fn a_single_column_is_refused_with_the_delimiters_read() {
+        // Also when the second column was only a trailing delimiter
+        // (found by the reading property).
+        let e = err_of(b"\"\"sep=;\nasep=;\n").to_string();
+        assert!(e.contains("single column"), "{e}");
         let e = err_of(b"a|b|c\n1|2|3\n").to_string();
         assert!(
             e.contains("single column") && e.contains("semicolons or tabs"),
@@ -1111,6 +1207,18 @@ mod tests {
             number_problem("seventy"),
             ("\"seventy\" is not a number".to_string(), None)
         );
+    }
+
+    #[test]
+    fn cells_store_text_compactly_and_give_it_back() {
+        let v = ["", "a", "", "\u{e9}t\u{e9}", "x,y"];
+        let c: Cells = v.iter().collect();
+        assert_eq!(c.len(), 5);
+        assert_eq!(c.iter().collect::<Vec<_>>(), v);
+        assert_eq!(c.iter().next_back(), Some("x,y"));
+        assert_eq!((&c[3], c.get(5)), ("\u{e9}t\u{e9}", None));
+        assert_eq!(c.text_len(), 9);
+        assert!(Cells::new().is_empty());
     }
 
     #[test]

@@ -191,7 +191,7 @@ impl Cohort {
         let mut ids = Vec::new();
         let mut treated = Vec::new();
         let mut left_out = Vec::new();
-        let mut first_row_of: BTreeMap<&str, usize> = BTreeMap::new();
+        let mut seen: Vec<(&str, usize)> = Vec::with_capacity(table.n_rows());
         for r in 0..table.n_rows() {
             let sheet_row = r + 2;
             let g = &group_col.cells[r];
@@ -210,17 +210,29 @@ impl Cohort {
                     "missing identifier; every row needs an id",
                 ));
             }
-            if let Some(first) = first_row_of.insert(id, sheet_row) {
-                return Err(Error::data(
-                    Some(sheet_row),
-                    Some(&columns.id),
-                    format!("duplicate id \"{id}\": rows {first} and {sheet_row} share it; ids must be unique"),
-                ));
-            }
+            seen.push((id, sheet_row));
             rows.push(r);
             ids.push(id.to_string());
             treated.push(same_value(g, &treated_value));
         }
+        // Sorting the ids finds duplicates without a map of millions of
+        // entries; the one reported is the first repeat in file order.
+        seen.sort_unstable();
+        if let Some((id, first, again)) = seen
+            .windows(2)
+            .filter(|w| w[0].0 == w[1].0)
+            .map(|w| (w[0].0, w[0].1, w[1].1))
+            .min_by_key(|&(_, _, again)| again)
+        {
+            return Err(Error::data(
+                Some(again),
+                Some(&columns.id),
+                format!(
+                    "duplicate id \"{id}\": rows {first} and {again} share it; ids must be unique"
+                ),
+            ));
+        }
+        drop(seen);
         let n_t = treated.iter().filter(|&&t| t).count();
         if n_t == 0 || n_t == treated.len() {
             return Err(Error::data(
@@ -607,6 +619,13 @@ mod tests {
         assert!(e.to_string().contains("\"yes\" does not occur"), "{e}");
         let e = Cohort::new(read_table(b"id,g\n1,0\n1,1\n").unwrap(), &bare).unwrap_err();
         assert!(e.to_string().contains("rows 2 and 3"), "{e}");
+        // The first repeat in file order is the one named.
+        let e = Cohort::new(
+            read_table(b"id,g\nb,0\na,1\nc,0\nb,1\na,0\nb,1\n").unwrap(),
+            &bare,
+        )
+        .unwrap_err();
+        assert!(e.to_string().contains("\"b\": rows 2 and 5"), "{e}");
     }
 
     #[test]

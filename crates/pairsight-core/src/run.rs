@@ -121,6 +121,9 @@ pub struct Summary {
     pub undefined_smd: Vec<String>,
     /// Score model record.
     pub score_model: ScoreModel,
+    /// Parts of the run that could not be computed, and why.
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub skipped: Vec<String>,
 }
 
 /// The fitted score model as reported.
@@ -364,20 +367,30 @@ impl Analysis {
                     })
             })
             .collect::<Result<Vec<_>>>()?;
+        // The term shift is a view of the notes, not part of the design: when
+        // it cannot be computed (no terms left after matching), say so and go on.
+        let mut skipped = Vec::new();
         let term_shift = match &self.notes {
-            Some(f) => Some(f.term_shift(
+            Some(f) => match f.term_shift(
                 treated,
                 &ones,
                 &matching.weights,
                 &TermShiftOptions::default(),
-            )?),
+            ) {
+                Ok(t) => Some(t),
+                Err(e) => {
+                    skipped.push(format!("term shift (terms.csv): {e}"));
+                    None
+                }
+            },
             None => None,
         };
         fills.extend(self.fills.iter().cloned());
         let mut seen = std::collections::BTreeSet::new();
         fills.retain(|f| seen.insert(f.column.clone()));
         fills.sort_by(|a, b| a.column.cmp(&b.column));
-        let summary = self.summary(design, &fit, &x, &matching, &balance, fills);
+        let mut summary = self.summary(design, &fit, &x, &matching, &balance, fills);
+        summary.skipped = skipped;
         Ok(DesignRun {
             design: design.clone(),
             fit,
@@ -431,10 +444,23 @@ impl Analysis {
 
     fn mahalanobis(&self, design: &Design) -> Result<Box<dyn PairDistance + '_>> {
         let (m, _) = self.cohort.model_terms(design.mahalanobis_terms())?;
-        Ok(Box::new(Mahalanobis::new(
-            m.values.view(),
-            &self.cohort.treated,
-        )?))
+        // The distance knows its columns by position; the user by name.
+        let named = |e: Error| match e {
+            Error::Compute { message } | Error::Param { message, .. } => {
+                let mut message = message;
+                for (j, name) in m.names.iter().enumerate().rev() {
+                    message = message.replace(
+                        &format!("covariate column {j} "),
+                        &format!("covariate \"{name}\" "),
+                    );
+                }
+                Error::compute(message)
+            }
+            other => other,
+        };
+        Ok(Box::new(
+            Mahalanobis::new(m.values.view(), &self.cohort.treated).map_err(named)?,
+        ))
     }
 
     fn distance<'a>(
@@ -630,6 +656,7 @@ impl Analysis {
                 coefficients,
                 warnings: fit.warnings.clone(),
             },
+            skipped: Vec::new(),
         }
     }
 }
@@ -853,6 +880,41 @@ mod tests {
         let a = Analysis::new(data.as_bytes(), s).unwrap();
         let e = a.run(&a.study.designs[0]).unwrap_err().to_string();
         assert!(e.contains("design \"d\", outcome \"y\""), "{e}");
+    }
+
+    #[test]
+    fn a_term_shift_that_cannot_be_computed_does_not_stop_the_design() {
+        let s = Study::from_toml(
+            "[columns]\nid = \"id\"\ngroup = \"g\"\ntreated = \"1\"\noutcomes = [\"y\"]\ncovariates = [\"age\"]\nnotes = \"note\"\n\n[note_options]\nlatent_dims = 0\n\n[[designs]]\nname = \"d\"\nscore_terms = [\"age\"]\n",
+        )
+        .unwrap();
+        // Only treated units have note text.
+        let data = cohort(",note", |i| {
+            if i % 2 == 1 {
+                ",lives alone after a fall".to_string()
+            } else {
+                ",".to_string()
+            }
+        });
+        let a = Analysis::new(&data, s).unwrap();
+        let r = a.run(&a.study.designs[0]).unwrap();
+        assert!(r.term_shift.is_none());
+        assert!(
+            r.summary.skipped[0].starts_with("term shift"),
+            "{:?}",
+            r.summary.skipped
+        );
+        assert!(r.files(&a).unwrap().iter().all(|f| f.name != "terms.csv"));
+    }
+
+    #[test]
+    fn mahalanobis_problems_name_the_covariate() {
+        let s = study(
+            "name = \"m\"\nscore_terms = [\"age\"]\ndistance = \"mahalanobis\"\nmahalanobis_terms = [\"age\", \"flat\"]",
+        );
+        let a = Analysis::new(&cohort(",flat", |_| ",5".to_string()), s).unwrap();
+        let e = a.run(&a.study.designs[0]).unwrap_err().to_string();
+        assert!(e.contains("covariate \"flat\" is constant"), "{e}");
     }
 
     #[test]

@@ -223,6 +223,12 @@ impl Study {
                 "must name a column or be left out",
             ));
         }
+        if !self.concepts.is_empty() && c.notes.is_none() {
+            return Err(Error::study(
+                "concepts",
+                "concepts are looked for in notes: set columns.notes, or remove the [[concepts]]",
+            ));
+        }
         let mut seen = BTreeMap::new();
         for (i, concept) in self.concepts.iter().enumerate() {
             let key = format!("concepts[{}]", i + 1);
@@ -474,6 +480,17 @@ exact = ["ward"]
             .to_string();
         assert!(
             e.contains("caliper (line 18)") && e.contains("duplicate"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn concepts_need_a_notes_column() {
+        let e = Study::from_toml(&GOOD.replace("notes = \"admission_note\"\n", ""))
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("\"concepts\"") && e.contains("set columns.notes"),
             "{e}"
         );
     }

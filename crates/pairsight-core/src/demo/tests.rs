@@ -11,7 +11,12 @@ fn demo(patients: usize, seed: u64) -> Demo {
 
 fn notes_of(d: &Demo) -> Vec<String> {
     let t = read_table(d.cohort_csv.as_bytes()).unwrap();
-    t.column("admission_note").unwrap().cells.clone()
+    t.column("admission_note")
+        .unwrap()
+        .cells
+        .iter()
+        .map(str::to_string)
+        .collect()
 }
 
 /// Whether `term` occurs in `text` (lower case) on word boundaries.
@@ -131,14 +136,14 @@ fn observed_outcomes_are_the_potential_outcome_of_the_group() {
     let readmit = t.column("readmit_30d").unwrap();
     let stay = t.column("length_of_stay").unwrap();
     for (i, p) in d.potential.iter().enumerate() {
-        let treated = group.cells[i] == "1";
+        let treated = &group.cells[i] == "1";
         let (r, s) = if treated {
             (p.readmit_treated, p.stay_treated)
         } else {
             (p.readmit_comparison, p.stay_comparison)
         };
-        assert_eq!(readmit.cells[i], r.to_string(), "row {i}");
-        assert_eq!(stay.cells[i], format!("{s:.1}"), "row {i}");
+        assert_eq!(&readmit.cells[i], r.to_string(), "row {i}");
+        assert_eq!(&stay.cells[i], format!("{s:.1}"), "row {i}");
         // The visit never causes a readmission and always shortens the stay
         // (monotone by construction).
         assert!(p.readmit_treated <= p.readmit_comparison);
