@@ -31,16 +31,17 @@ pub struct Built {
 /// Build everything and write `dist/`.
 pub fn build() -> Result<Built> {
     let root = sh::root();
-    println!("== build: wasm core (release)");
+    println!("== build: wasm core (profile web: release, optimised for size)");
     sh::run(Command::new("cargo").current_dir(&root).args([
         "build",
         "-p",
         "pairsight-wasm",
         "--target",
         "wasm32-unknown-unknown",
-        "--release",
+        "--profile",
+        "web",
     ]))?;
-    let raw = root.join("target/wasm32-unknown-unknown/release/pairsight_wasm.wasm");
+    let raw = root.join("target/wasm32-unknown-unknown/web/pairsight_wasm.wasm");
     let glue_dir = root.join("target/wasm-bindgen");
     sh::run(
         Command::new(tool("wasm-bindgen")?)
