@@ -122,7 +122,10 @@ pub fn npm_wasm_opt() -> Option<std::path::PathBuf> {
 /// features Rust's wasm32 target emits), else Debian's binaryen.
 fn wasm_opt(apt: &mut Apt) -> Result<()> {
     if sh::which("npm").is_some() && sh::which("node").is_some() {
-        return npm_ci("crates/xtask/tools", "binaryen's wasm-opt (shrinks the wasm)");
+        return npm_ci(
+            "crates/xtask/tools",
+            "binaryen's wasm-opt (shrinks the wasm)",
+        );
     }
     if sh::which("wasm-opt").is_some() {
         println!("ok: wasm-opt");
