@@ -11,6 +11,8 @@ import { mountDesigns } from './screens/designs.js';
 import { mountBalance } from './screens/balance.js';
 import { mountPairs } from './screens/pairs.js';
 import { mountExport } from './screens/export.js';
+import { mountEffect } from './screens/effect.js';
+import { mountReview } from './screens/review.js';
 import { openDemoIfAsked } from './demo.js';
 import { mountWork } from './work.js';
 import { store, saveStep, loadStep } from './store.js';
@@ -32,6 +34,8 @@ function go(step) {
   else if (id === 'designs') mountDesigns(screen, go);
   else if (id === 'balance') mountBalance(screen);
   else if (id === 'pairs') mountPairs(screen);
+  else if (id === 'review') mountReview(screen);
+  else if (id === 'effect') mountEffect(screen);
   else if (id === 'export') mountExport(screen, go);
   saveStep(id);
   window.scrollTo(0, 0);

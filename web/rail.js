@@ -11,8 +11,8 @@ export const STEPS = [
   { id: 'designs', label: 'Designs', built: true },
   { id: 'balance', label: 'Balance', built: true },
   { id: 'pairs', label: 'Side by side', built: true },
-  { id: 'review', label: 'Review', built: false },
-  { id: 'effect', label: 'Effect', built: false },
+  { id: 'review', label: 'Review', built: true },
+  { id: 'effect', label: 'Effect', built: true },
   { id: 'export', label: 'Export', built: true },
 ];
 

@@ -42,6 +42,23 @@ const METHODS = {
   session_love_svg: ({ designs, width, height }) => core.session_love_svg(designs, width, height),
   session_overlap_svg: ({ name, width, height }) => core.session_overlap_svg(name, width, height),
   love_height: ({ terms }) => core.love_height(terms),
+  effect_caution: () => core.effect_caution(),
+  session_draw_sensitivity: ({ width, height, name, outcome }) =>
+    paint(width, height, (canvas) => core.session_draw_sensitivity(canvas, name, outcome)),
+  session_sensitivity_svg: ({ name, outcome, width, height }) => core.session_sensitivity_svg(name, outcome, width, height),
+  session_report: ({ request }, progress) => {
+    progress(0, 1, 'writing the report');
+    return core.session_report(request);
+  },
+  session_round: ({ request }, progress) => {
+    progress(0, 1, 'drawing the round, writing the packets');
+    return core.session_round(request);
+  },
+  packet_defaults: () => core.packet_defaults(),
+  review_merge: ({ upload }, progress) => {
+    progress(0, 1, 'merging ratings, agreement');
+    return core.review_merge(upload);
+  },
   study_to_toml: ({ study }) => core.study_to_toml(study),
   study_from_toml: ({ text }) => core.study_from_toml(text),
 };

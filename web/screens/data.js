@@ -41,6 +41,17 @@ export function mountData(screen, engine, onReady) {
     lead,
     el('p', { class: 'dropzone-or', text: 'or' }),
     picker,
+    // The demo lives behind `#demo`; the button sets it (or replays it).
+    el('button', {
+      type: 'button',
+      class: 'button button-quiet',
+      'data-testid': 'open-demo',
+      text: 'Open the invented demo cohort',
+      onclick: () => {
+        if (window.location.hash === '#demo') window.dispatchEvent(new HashChangeEvent('hashchange'));
+        else window.location.hash = '#demo';
+      },
+    }),
     el('p', {
       class: 'dropzone-hint',
       text: 'A CSV with a header row; comma, semicolon or tab between values; UTF-8 or Latin-1.',

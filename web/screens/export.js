@@ -6,6 +6,7 @@ import { el, replaceChildren } from '../dom.js';
 import { showError, clearError, showNotice } from '../banner.js';
 import { store, changed, saveStudy, normalizeStudy, studyForCore } from '../store.js';
 import { withSession, plain } from '../work.js';
+import { review, reviewUpload } from './review.js';
 
 /** Offer `data` (text or Blob) as a download named `name`. */
 export function download(name, data, type) {
@@ -107,6 +108,34 @@ export function mountExport(screen, go) {
     }
   });
 
+  const includeNotes = el('input', { type: 'checkbox', 'data-testid': 'report-notes' });
+  const reportButton = el('button', { type: 'button', class: 'button', text: 'Report (HTML)', 'data-testid': 'export-report', disabled: !ran.length });
+  reportButton.addEventListener('click', async () => {
+    clearError();
+    try {
+      const names = ran;
+      let studyText = null;
+      try {
+        studyText = await plain('study_to_toml', { study: studyForCore() });
+      } catch {
+        studyText = null; // the core writes the study out from the analysis
+      }
+      const request = {
+        designs: names,
+        title: 'pairsight report',
+        include_notes: includeNotes.checked,
+        example_pairs: 3,
+        data_name: store.file?.name ?? null,
+        study_text: studyText,
+        review: reviewUpload(),
+      };
+      const html = await withSession('Writing the report', 'session_report', { request }, { needs: names });
+      download('pairsight-report.html', html, 'text/html');
+    } catch (err) {
+      if (err?.kind !== 'cancelled') showError(err, 'The report could not be written');
+    }
+  });
+
   replaceChildren(
     screen,
     el('h1', { text: 'Export' }),
@@ -130,6 +159,20 @@ export function mountExport(screen, go) {
         fileButton('Effect (JSON)', 'effect.json', 'export-effect', 'application/json'),
       ),
       el('p', { class: 'hint', text: 'Matched data: one row per matched unit with its set, id, group (1 = treated), weight and distance; the same bytes as pairsight match writes.' }),
+    ),
+    el(
+      'section',
+      { class: 'panel', 'data-testid': 'report-panel' },
+      el('h2', { text: 'Report' }),
+      el('p', {
+        class: 'hint',
+        text:
+          'One self-contained HTML file for collaborators: data description (counts, not records), every run design, balance, plots, term shift, ' +
+          (review.merged?.results ? 'the expert review of this visit, ' : '') +
+          'effect and sensitivity, cautions and the study file. It opens from disk and makes no network request.',
+      }),
+      el('label', { class: 'check' }, includeNotes, el('span', { text: 'Include a few example pairs’ notes (off by default: notes are protected health information; include them only where every reader may see them)' })),
+      el('div', { class: 'field-row' }, reportButton),
     ),
     el('section', { class: 'panel' }, el('h2', { text: 'Love plot' }), el('p', { class: 'hint', text: 'The designs compared on the Balance step.' }), el('div', { class: 'field-row' }, loveSvg, lovePng)),
     el(

@@ -90,9 +90,11 @@ pub struct Kappa {
     pub se: f64,
     /// Standard error under kappa = 0; gives the test.
     pub se_null: f64,
-    /// Lower confidence limit, kappa - z se.
+    /// Lower confidence limit, kappa - z se, kept within [-1, 1].
     pub ci_low: f64,
-    /// Upper confidence limit, kappa + z se.
+    /// Upper confidence limit, kappa + z se, kept within [-1, 1] (kappa
+    /// cannot exceed 1; the Wald interval can, near perfect agreement, so it
+    /// is truncated there, as is common practice).
     pub ci_high: f64,
     /// Confidence level.
     pub level: f64,
@@ -235,8 +237,8 @@ pub fn cohen_kappa(a: &[f64], b: &[f64], params: &KappaParams) -> Result<Kappa> 
         kappa,
         se,
         se_null,
-        ci_low: kappa - zq * se,
-        ci_high: kappa + zq * se,
+        ci_low: (kappa - zq * se).clamp(-1.0, 1.0),
+        ci_high: (kappa + zq * se).clamp(-1.0, 1.0),
         level: params.level,
         z,
         p_value: if z.is_nan() {
@@ -743,6 +745,21 @@ mod tests {
             let k = cohen_kappa(&a, &a, &p).unwrap();
             assert!((k.kappa - 1.0).abs() < 1e-12);
         }
+    }
+
+    #[test]
+    fn kappa_interval_stays_within_its_range() {
+        // Near-perfect agreement on few pairs: the Wald interval would pass 1.
+        let a = [1.0, 2.0, 3.0, 4.0, 5.0, 5.0, 4.0, 2.0];
+        let b = [1.0, 2.0, 3.0, 4.0, 5.0, 4.0, 4.0, 2.0];
+        let p = KappaParams {
+            weights: KappaWeights::Quadratic,
+            ..KappaParams::default()
+        };
+        let k = cohen_kappa(&a, &b, &p).unwrap();
+        assert!(k.kappa < 1.0 && k.kappa + 1.96 * k.se > 1.0, "{k:?}");
+        assert!(k.ci_low >= -1.0 && k.ci_high <= 1.0, "{k:?}");
+        assert!(k.ci_low <= k.kappa && k.kappa <= k.ci_high);
     }
 
     #[test]

@@ -4,6 +4,7 @@
 //! they write the same bytes.
 
 use crate::balance::{self, BalanceRow};
+use crate::chart::{LoveDesign, LoveInput, LoveTerm, OverlapInput, OverlapPanel, MAX_DESIGNS};
 use crate::distance::{Blend, BlendPart, FnDistance, Mahalanobis, PairDistance, ScoreDistance};
 use crate::effect::{self, EffectEstimate, EffectParams, OutcomeKind, SetOutcomes};
 use crate::ingest::{read_table, Kind, Table};
@@ -821,6 +822,93 @@ impl DesignRun {
 
 /// The caution that goes with every estimate.
 pub const CAUTION: &str = "A matched comparison estimates an effect only under the assumption of no unmeasured confounding; the sensitivity analysis bounds but does not remove that doubt. These results support study design and need review by qualified people; follow local research-ethics and data-governance rules.";
+
+/// The Love plot input of up to [`crate::chart::MAX_DESIGNS`] design runs:
+/// every balance term with its SMD before matching (from the first run; the
+/// balance terms and their "before" are the same for every design) and each
+/// design's SMD after matching. An empty list gives an empty plot.
+pub fn love_input(runs: &[&DesignRun]) -> Result<LoveInput> {
+    let Some(first) = runs.first() else {
+        return Ok(LoveInput::default());
+    };
+    if runs.len() > MAX_DESIGNS {
+        return Err(Error::param(
+            "designs",
+            format!("one Love plot compares at most {MAX_DESIGNS} designs; choose fewer"),
+        ));
+    }
+    Ok(LoveInput {
+        terms: first
+            .balance
+            .iter()
+            .map(|r| LoveTerm {
+                label: r.term.clone(),
+                from_note: r.kind.is_note_derived(),
+                before: r.smd_before,
+            })
+            .collect(),
+        designs: runs
+            .iter()
+            .map(|r| LoveDesign {
+                name: r.design.name.clone(),
+                after: r.balance.iter().map(|b| b.smd_after).collect(),
+            })
+            .collect(),
+        ..LoveInput::default()
+    })
+}
+
+impl DesignRun {
+    /// The overlap plot input of this design: the logit score by group
+    /// before matching, and after matching weighted by the matching weights
+    /// (units outside the matched sets are not in the after panel).
+    pub fn overlap_input(&self, analysis: &Analysis) -> OverlapInput {
+        let split = |w: Option<&[f64]>| {
+            let (mut ts, mut cs, mut tw, mut cw) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+            for (i, (&l, &tr)) in self
+                .fit
+                .logit
+                .iter()
+                .zip(&analysis.cohort.treated)
+                .enumerate()
+            {
+                let wi = w.map_or(1.0, |w| w[i]);
+                if wi <= 0.0 {
+                    continue;
+                }
+                if tr {
+                    ts.push(l);
+                    tw.push(wi);
+                } else {
+                    cs.push(l);
+                    cw.push(wi);
+                }
+            }
+            (ts, cs, tw, cw)
+        };
+        let (tb, cb, _, _) = split(None);
+        let (ta, ca, twa, cwa) = split(Some(&self.matching.weights));
+        OverlapInput {
+            title: Some(format!("Design {}", self.design.name)),
+            panels: vec![
+                OverlapPanel {
+                    label: "before matching".into(),
+                    treated: tb,
+                    comparison: cb,
+                    ..OverlapPanel::default()
+                },
+                OverlapPanel {
+                    label: "after matching".into(),
+                    treated: ta,
+                    comparison: ca,
+                    treated_weights: Some(twa),
+                    comparison_weights: Some(cwa),
+                },
+            ],
+            ..OverlapInput::default()
+        }
+    }
+}
 
 #[cfg(test)]
 mod tests {

@@ -12,8 +12,7 @@
 //! font measurement), so nothing here needs a font.
 
 use pairsight_core::chart::{
-    draw_love, draw_overlap, draw_sensitivity, love_svg, overlap_svg, LoveDesign, LoveInput,
-    LoveTerm, OverlapInput, OverlapPanel, SensitivityInput, MAX_DESIGNS,
+    draw_love, draw_overlap, draw_sensitivity, love_svg, overlap_svg, SensitivityInput,
 };
 use pairsight_core::run::{Analysis, DesignRun};
 use pairsight_core::{Error, Result};
@@ -295,82 +294,7 @@ impl DrawingBackend for OffscreenBackend {
     }
 }
 
-/// The Love plot input of some designs' runs: terms of the first run, the
-/// SMD before matching, and each design's SMD after (the runs share their
-/// balance terms, since the study fixes them).
-pub fn love_input(runs: &[&DesignRun]) -> Result<LoveInput> {
-    let Some(first) = runs.first() else {
-        return Ok(LoveInput::default());
-    };
-    if runs.len() > MAX_DESIGNS {
-        return Err(Error::param(
-            "designs",
-            format!("one Love plot compares at most {MAX_DESIGNS} designs; choose fewer"),
-        ));
-    }
-    Ok(LoveInput {
-        terms: first
-            .balance
-            .iter()
-            .map(|r| LoveTerm {
-                label: r.term.clone(),
-                from_note: r.kind.is_note_derived(),
-                before: r.smd_before,
-            })
-            .collect(),
-        designs: runs
-            .iter()
-            .map(|r| LoveDesign {
-                name: r.design.name.clone(),
-                after: r.balance.iter().map(|b| b.smd_after).collect(),
-            })
-            .collect(),
-        ..LoveInput::default()
-    })
-}
-
-/// The overlap plot input of one design: the logit score by group before
-/// matching, and after matching weighted by the matching weights.
-pub fn overlap_input(a: &Analysis, r: &DesignRun) -> OverlapInput {
-    let split = |w: Option<&[f64]>| {
-        let (mut ts, mut cs, mut tw, mut cw) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
-        for (i, (&l, &tr)) in r.fit.logit.iter().zip(&a.cohort.treated).enumerate() {
-            let wi = w.map_or(1.0, |w| w[i]);
-            if wi <= 0.0 {
-                continue;
-            }
-            if tr {
-                ts.push(l);
-                tw.push(wi);
-            } else {
-                cs.push(l);
-                cw.push(wi);
-            }
-        }
-        (ts, cs, tw, cw)
-    };
-    let (tb, cb, _, _) = split(None);
-    let (ta, ca, twa, cwa) = split(Some(&r.matching.weights));
-    OverlapInput {
-        title: Some(format!("Design {}", r.design.name)),
-        panels: vec![
-            OverlapPanel {
-                label: "before matching".into(),
-                treated: tb,
-                comparison: cb,
-                ..OverlapPanel::default()
-            },
-            OverlapPanel {
-                label: "after matching".into(),
-                treated: ta,
-                comparison: ca,
-                treated_weights: Some(twa),
-                comparison_weights: Some(cwa),
-            },
-        ],
-        ..OverlapInput::default()
-    }
-}
+pub use pairsight_core::run::love_input;
 
 /// Paint the Love plot of `runs` on `canvas`.
 pub fn paint_love(canvas: &OffscreenCanvas, runs: &[&DesignRun]) -> Result<()> {
@@ -382,7 +306,7 @@ pub fn paint_love(canvas: &OffscreenCanvas, runs: &[&DesignRun]) -> Result<()> {
 pub fn paint_overlap(canvas: &OffscreenCanvas, a: &Analysis, r: &DesignRun) -> Result<()> {
     draw_overlap(
         OffscreenBackend::new(canvas)?.into_drawing_area(),
-        &overlap_input(a, r),
+        &r.overlap_input(a),
     )
 }
 
@@ -398,5 +322,5 @@ pub fn love_svg_of(runs: &[&DesignRun], width: u32, height: u32) -> Result<Strin
 
 /// The overlap plot of one run as SVG text.
 pub fn overlap_svg_of(a: &Analysis, r: &DesignRun, width: u32, height: u32) -> Result<String> {
-    overlap_svg(&overlap_input(a, r), width, height)
+    overlap_svg(&r.overlap_input(a), width, height)
 }

@@ -31,16 +31,17 @@ pub struct Built {
 /// Build everything and write `dist/`.
 pub fn build() -> Result<Built> {
     let root = sh::root();
-    println!("== build: wasm core (release)");
+    println!("== build: wasm core (profile web: release, optimised for size)");
     sh::run(Command::new("cargo").current_dir(&root).args([
         "build",
         "-p",
         "pairsight-wasm",
         "--target",
         "wasm32-unknown-unknown",
-        "--release",
+        "--profile",
+        "web",
     ]))?;
-    let raw = root.join("target/wasm32-unknown-unknown/release/pairsight_wasm.wasm");
+    let raw = root.join("target/wasm32-unknown-unknown/web/pairsight_wasm.wasm");
     let glue_dir = root.join("target/wasm-bindgen");
     sh::run(
         Command::new(tool("wasm-bindgen")?)
@@ -129,7 +130,7 @@ pub fn tool(name: &str) -> Result<PathBuf> {
 /// lost or changed an export, is reported and the unoptimised wasm used, so
 /// an old binaryen never blocks a build nor breaks the page.
 fn optimise(bg: &Path) -> Result<(PathBuf, bool)> {
-    let Some(wasm_opt) = sh::which("wasm-opt") else {
+    let Some(wasm_opt) = crate::install::npm_wasm_opt().or_else(|| sh::which("wasm-opt")) else {
         println!("note: wasm-opt not found; shipping the wasm unoptimised (`cargo xtask install` adds it)");
         return Ok((bg.to_path_buf(), false));
     };
@@ -145,7 +146,7 @@ fn optimise(bg: &Path) -> Result<(PathBuf, bool)> {
         "--enable-multivalue",
     ];
     let outcome = sh::run(
-        Command::new(wasm_opt)
+        Command::new(&wasm_opt)
             .arg("-Oz")
             .args(features)
             .arg(bg)
@@ -159,7 +160,7 @@ fn optimise(bg: &Path) -> Result<(PathBuf, bool)> {
     let before = wasm_exports::exports(&read(bg)?);
     let after = wasm_exports::exports(&read(&out)?);
     if before.is_none() || before != after {
-        let version = sh::query("wasm-opt", &["--version"]).unwrap_or_default();
+        let version = sh::query(&wasm_opt.to_string_lossy(), &["--version"]).unwrap_or_default();
         println!(
             "warning: {} changed the module's exports (older binaryen releases rewrite the \
              externref table wrongly); shipping the wasm unoptimised. A newer binaryen fixes this.",

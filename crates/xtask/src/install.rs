@@ -111,7 +111,22 @@ fn wasm_bindgen_cli() -> Result<()> {
     ]))
 }
 
+/// The wasm-opt from npm's binaryen package (pinned in
+/// `crates/xtask/tools/package-lock.json`), when installed.
+pub fn npm_wasm_opt() -> Option<std::path::PathBuf> {
+    let p = sh::root().join("crates/xtask/tools/node_modules/.bin/wasm-opt");
+    p.is_file().then_some(p)
+}
+
+/// wasm-opt: npm's binaryen when Node.js is there (recent enough for the
+/// features Rust's wasm32 target emits), else Debian's binaryen.
 fn wasm_opt(apt: &mut Apt) -> Result<()> {
+    if sh::which("npm").is_some() && sh::which("node").is_some() {
+        return npm_ci(
+            "crates/xtask/tools",
+            "binaryen's wasm-opt (shrinks the wasm)",
+        );
+    }
     if sh::which("wasm-opt").is_some() {
         println!("ok: wasm-opt");
         return Ok(());
@@ -192,19 +207,24 @@ fn node_major(reported: &str) -> Option<u32> {
         .ok()
 }
 
-/// `npm ci` in tests/e2e, unless node_modules already matches the committed
-/// lockfile (a stamp holds the lockfile it was installed from).
+/// The npm packages of the browser tests.
 fn npm_packages() -> Result<()> {
-    let dir = sh::root().join("tests/e2e");
+    npm_ci("tests/e2e", "playwright-core (no browser download)")
+}
+
+/// `npm ci` in `folder`, unless node_modules already matches the committed
+/// lockfile (a stamp holds the lockfile it was installed from).
+fn npm_ci(folder: &str, what: &str) -> Result<()> {
+    let dir = sh::root().join(folder);
     let lock_path = dir.join("package-lock.json");
     let lock = std::fs::read(&lock_path)
         .map_err(|e| Failure::new(format!("cannot read {}: {e}", lock_path.display())))?;
     let stamp = dir.join("node_modules/.pairsight-lock-stamp");
     if std::fs::read(&stamp).ok().as_deref() == Some(lock.as_slice()) {
-        println!("ok: npm packages of tests/e2e");
+        println!("ok: npm packages of {folder}");
         return Ok(());
     }
-    println!("installing: npm packages of tests/e2e from package-lock.json (no browser download)");
+    println!("installing: npm packages of {folder} from package-lock.json: {what}");
     sh::run(
         Command::new("npm")
             .args(["ci", "--no-audit", "--no-fund"])

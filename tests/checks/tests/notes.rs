@@ -126,6 +126,49 @@ fn cosine_distance_matches_sklearn() {
     }
 }
 
+/// Note-cosine optimal 1:1 matching (no caliper, no exact columns): the
+/// least total distance equals scipy.optimize.linear_sum_assignment's on
+/// scikit-learn's cosine distances of the same TF-IDF rows, within 1e-9
+/// relative.
+#[test]
+fn note_cosine_optimal_total_matches_scipy_assignment() {
+    use pairsight_core::distance::FnDistance;
+    use pairsight_core::matching::{match_units, Algorithm, MatchInput, MatchParams};
+    let r = reference("notes");
+    let notes = strings(&r["notes"]);
+    let treated: Vec<bool> = r["assignment_treated"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|v| v.as_bool().unwrap())
+        .collect();
+    let f = analyze(&notes, &[], &no_latent()).unwrap();
+    let distance = FnDistance::new(|t, c| cosine_distance(&f.tfidf, t, c));
+    let logit = vec![0.0; notes.len()];
+    let m = match_units(
+        &MatchInput {
+            treated: &treated,
+            logit: &logit,
+            exact: None,
+            distance: &distance,
+        },
+        &MatchParams {
+            caliper: None,
+            controls: 1,
+            reuse: false,
+            algorithm: Algorithm::Optimal,
+        },
+    )
+    .unwrap();
+    let want = r["assignment_total"].as_f64().unwrap();
+    assert_eq!(m.sets.len(), treated.iter().filter(|&&t| t).count());
+    assert!(
+        (m.total_distance - want).abs() <= 1e-9 * want.abs().max(1.0),
+        "{} vs {want}",
+        m.total_distance
+    );
+}
+
 /// numpy.linalg.svd of the dense TF-IDF matrix of a small corpus: the
 /// randomized SVD's singular values within 1e-6 relative. Single singular
 /// vectors are ill-conditioned when neighbouring singular values are close

@@ -22,8 +22,8 @@ pub use text::{
 
 use crate::balance::BalanceRow;
 use crate::chart::{
-    love_height_hint, love_svg, overlap_svg, sensitivity_svg, LoveDesign, LoveInput, LoveTerm,
-    OverlapInput, OverlapPanel, SensitivityInput, MAX_DESIGNS,
+    love_height_hint, love_svg, overlap_svg, sensitivity_svg, OverlapInput, SensitivityInput,
+    MAX_DESIGNS,
 };
 use crate::effect::EffectEstimate;
 use crate::ingest::Kind;
@@ -634,25 +634,8 @@ fn balance_section(pg: &mut Page, runs: &[DesignRun]) -> Result<()> {
         return Ok(());
     };
     for (k, chunk) in runs.chunks(MAX_DESIGNS).enumerate() {
-        let input = LoveInput {
-            terms: first
-                .balance
-                .iter()
-                .map(|r| LoveTerm {
-                    label: r.term.clone(),
-                    from_note: r.kind.is_note_derived(),
-                    before: r.smd_before,
-                })
-                .collect(),
-            designs: chunk
-                .iter()
-                .map(|r| LoveDesign {
-                    name: r.design.name.clone(),
-                    after: r.balance.iter().map(|b| b.smd_after).collect(),
-                })
-                .collect(),
-            ..LoveInput::default()
-        };
+        let refs: Vec<&DesignRun> = chunk.iter().collect();
+        let input = crate::run::love_input(&refs)?;
         let svg = love_svg(&input, 760, love_height_hint(input.terms.len()))?;
         let which = if runs.len() > MAX_DESIGNS {
             format!(
@@ -736,48 +719,9 @@ fn overlap_section(pg: &mut Page, a: &Analysis, runs: &[DesignRun]) -> Result<()
     pg.section("overlap", "Score overlap");
     pg.p("Distribution of the logit score in the two groups, before matching and after matching (weighted by the matching). Each design fits its own score model, so each has its own pair of panels. Little overlap before matching means some treated patients have no comparable comparison patients.");
     for r in runs {
-        let split = |w: Option<&[f64]>| {
-            let mut t_s = Vec::new();
-            let mut c_s = Vec::new();
-            let mut t_w = Vec::new();
-            let mut c_w = Vec::new();
-            for (i, (&l, &tr)) in r.fit.logit.iter().zip(&a.cohort.treated).enumerate() {
-                let wi = w.map_or(1.0, |w| w[i]);
-                // Units outside the matched sets are not part of the after panel.
-                if wi <= 0.0 {
-                    continue;
-                }
-                if tr {
-                    t_s.push(l);
-                    t_w.push(wi);
-                } else {
-                    c_s.push(l);
-                    c_w.push(wi);
-                }
-            }
-            (t_s, c_s, t_w, c_w)
-        };
-        let (tb, cb, _, _) = split(None);
-        let (ta, ca, twa, cwa) = split(Some(&r.matching.weights));
         let input = OverlapInput {
             title: None,
-            score_label: "logit score".into(),
-            panels: vec![
-                OverlapPanel {
-                    label: "before matching".into(),
-                    treated: tb,
-                    comparison: cb,
-                    ..OverlapPanel::default()
-                },
-                OverlapPanel {
-                    label: "after matching".into(),
-                    treated: ta,
-                    comparison: ca,
-                    treated_weights: Some(twa),
-                    comparison_weights: Some(cwa),
-                },
-            ],
-            ..OverlapInput::default()
+            ..r.overlap_input(a)
         };
         let svg = overlap_svg(&input, 760, 300)?;
         pg.figure(
