@@ -180,23 +180,10 @@ pub fn draw_love<DB: DrawingBackend>(
             "No covariates to show: choose covariates and run a design.",
         );
     }
-    root.fill(&palette::PAPER).map_err(draw_err)?;
     let pen = Pen::new(&root);
     let (w, h) = (w as i32, h as i32);
-    let pad = 14;
-    let mut top = pad;
-
-    if let Some(t) = &input.title {
-        pen.text(
-            &fit_text(t, 16.0, (w - 2 * pad) as f64),
-            pad,
-            top,
-            Font::new(16.0, palette::INK).bold(),
-            HPos::Left,
-            VPos::Top,
-        )?;
-        top += 26;
-    }
+    let pad = super::PAD;
+    let mut top = pen.start(input.title.as_deref(), w)?;
 
     let mut legend = vec![LegendEntry {
         label: "before matching".into(),

@@ -244,6 +244,9 @@ pub(crate) enum Shape {
 }
 
 /// A thin layer over a pixel-addressed drawing area: text, lines, markers.
+/// Margin around every chart, in pixels.
+pub(crate) const PAD: i32 = 14;
+
 pub(crate) struct Pen<'a, DB: DrawingBackend> {
     pub area: &'a DrawingArea<DB, Shift>,
     /// plotters' SVG backend writes `font-size` as the requested size
@@ -259,6 +262,25 @@ impl<'a, DB: DrawingBackend> Pen<'a, DB> {
             area,
             text_scale: if svg { 1.24 } else { 1.0 },
         }
+    }
+
+    /// Every chart starts the same way: paper background, then the optional
+    /// title at the top left. Returns the y below the title.
+    pub fn start(&self, title: Option<&str>, width: i32) -> Result<i32> {
+        self.area.fill(&palette::PAPER).map_err(draw_err)?;
+        let mut top = PAD;
+        if let Some(t) = title {
+            self.text(
+                &fit_text(t, 16.0, (width - 2 * PAD) as f64),
+                PAD,
+                top,
+                Font::new(16.0, palette::INK).bold(),
+                HPos::Left,
+                VPos::Top,
+            )?;
+            top += 26;
+        }
+        Ok(top)
     }
 
     pub fn text(&self, s: &str, x: i32, y: i32, f: Font, h: HPos, v: VPos) -> Result<()> {

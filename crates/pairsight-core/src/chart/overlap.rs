@@ -198,22 +198,10 @@ pub fn draw_overlap<DB: DrawingBackend>(
     let ystep = nice_step(top_share * 100.0, 2) / 100.0;
     let ymax = (top_share / ystep - 1e-9).ceil() * ystep;
 
-    root.fill(&palette::PAPER).map_err(draw_err)?;
     let pen = Pen::new(&root);
     let (w, h) = (w as i32, h as i32);
-    let pad = 14;
-    let mut top = pad;
-    if let Some(t) = &input.title {
-        pen.text(
-            &fit_text(t, 16.0, (w - 2 * pad) as f64),
-            pad,
-            top,
-            Font::new(16.0, palette::INK).bold(),
-            HPos::Left,
-            VPos::Top,
-        )?;
-        top += 26;
-    }
+    let pad = super::PAD;
+    let mut top = pen.start(input.title.as_deref(), w)?;
     let legend = [
         LegendEntry {
             label: "treated (bars above the line)".into(),
