@@ -354,17 +354,7 @@ fn paired_t(d: &[f64]) -> (f64, f64, f64) {
     let m = stats::mean(d);
     let se = (stats::variance(d) / n).sqrt();
     let df = n - 1.0;
-    let t = m / se;
-    let p = if se == 0.0 {
-        if m == 0.0 {
-            1.0
-        } else {
-            0.0
-        }
-    } else {
-        (2.0 * stats::t_sf(t.abs(), df)).min(1.0)
-    };
-    (t, p, df)
+    (m / se, stats::t_test_p(m, se, df), df)
 }
 
 /// McNemar's test from the discordant counts: the exact two-sided binomial
@@ -699,15 +689,7 @@ pub fn unmatched(
             out.ci_low = est - tq * se;
             out.ci_high = est + tq * se;
             let t = est / se;
-            let p = if se == 0.0 {
-                if est == 0.0 {
-                    1.0
-                } else {
-                    0.0
-                }
-            } else {
-                (2.0 * stats::t_sf(t.abs(), df)).min(1.0)
-            };
+            let p = stats::t_test_p(est, se, df);
             out.method = "Welch t interval (Welch-Satterthwaite degrees of freedom)".into();
             out.test = "Welch t-test".into();
             out.p_value = p;

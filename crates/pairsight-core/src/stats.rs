@@ -383,6 +383,16 @@ pub fn t_cdf(t: f64, df: f64) -> f64 {
     t_sf(-t, df)
 }
 
+/// Two-sided p-value of a t-test of `estimate` with standard error `se` on
+/// `df` degrees of freedom: 2 P(T >= |estimate / se|). With no spread
+/// (se = 0) it is 1 for a zero estimate and 0 otherwise.
+pub fn t_test_p(estimate: f64, se: f64, df: f64) -> f64 {
+    if se == 0.0 {
+        return if estimate == 0.0 { 1.0 } else { 0.0 };
+    }
+    (2.0 * t_sf((estimate / se).abs(), df)).min(1.0)
+}
+
 /// Student t density.
 pub fn t_pdf(t: f64, df: f64) -> f64 {
     libm::exp(
@@ -721,7 +731,7 @@ pub fn spearman(x: &[f64], y: &[f64]) -> Result<RankCorrelation> {
         0.0
     } else {
         let t = rho * (df / ((1.0 - rho) * (1.0 + rho))).sqrt();
-        (2.0 * t_sf(t.abs(), df)).min(1.0)
+        t_test_p(t, 1.0, df)
     };
     Ok(RankCorrelation { rho, p_value, n })
 }

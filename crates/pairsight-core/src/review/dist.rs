@@ -9,7 +9,7 @@ pub(crate) fn t_two_sided(t: f64, df: f64) -> f64 {
     if !t.is_finite() {
         return 0.0;
     }
-    (2.0 * stats::t_sf(t.abs(), df)).min(1.0)
+    stats::t_test_p(t, 1.0, df)
 }
 
 /// The `p` quantile of Student's t (0 < p < 1).
