@@ -2,13 +2,15 @@
 // name, a bar, a Cancel button). The engine's worker keeps a session (the
 // file, the prepared study, the runs); cancelling ends that worker, so this
 // module remembers what the session should hold and sends it again when a
-// fresh worker needs it. The file's bytes stay in this page's memory only.
+// fresh worker needs it. The file itself is held as a Blob (for a picked
+// file, a reference to it on disk), so neither the page nor the worker keeps
+// a copy of its bytes: the worker reads it into the core chunk by chunk.
 
 import { byTestId, el, replaceChildren } from './dom.js';
 import { store, studyForCore, changed } from './store.js';
 
 let engine = null;
-let bytes = null; // the open file, kept to re-open it in a fresh worker
+let source = null; // the open file as a Blob, to re-open it in a fresh worker
 let engineFile = false; // whether the worker's session has the file
 let engineStudy = null; // JSON of the study the worker's session has prepared
 let queue = Promise.resolve();
@@ -75,9 +77,8 @@ export function job(title, body) {
 
 async function ensureFile(step) {
   if (engineFile) return;
-  if (!bytes) throw { kind: 'param', message: 'Open a cohort file first.', detail: 'Open a cohort file first.' };
-  const copy = bytes.slice(0);
-  await step('session_open', { bytes: copy });
+  if (!source) throw { kind: 'param', message: 'Open a cohort file first.', detail: 'Open a cohort file first.' };
+  await step('session_open', { file: source });
   engineFile = true;
   engineStudy = null;
 }
@@ -95,13 +96,17 @@ async function ensureStudy(step) {
   return prepared;
 }
 
-/** Open a cohort file in a fresh session; resolves with its summary. */
-export function openCohort(name, buffer) {
+/**
+ * Open a cohort file (a File or any Blob) in a fresh session; resolves with
+ * its summary.
+ */
+export function openCohort(name, file) {
   return job(`Reading “${name}”`, async (step) => {
-    bytes = buffer.slice(0);
+    source = null;
     engineFile = false;
     engineStudy = null;
-    const summary = await step('session_open', { bytes: buffer });
+    const summary = await step('session_open', { file });
+    source = file;
     engineFile = true;
     store.prepared = null;
     store.runs.clear();
@@ -161,5 +166,5 @@ export function plain(method, args) {
 
 /** Whether a cohort is open. */
 export function hasFile() {
-  return bytes !== null;
+  return source !== null;
 }

@@ -18,10 +18,8 @@ const METHODS = {
   summarize_csv: ({ bytes }) => core.summarize_csv(new Uint8Array(bytes)),
   demo_cohort: () => core.demo_cohort(),
   demo_study: () => core.demo_study(),
-  session_open: ({ bytes }, progress) => {
-    progress(0, 1, 'reading');
-    return core.session_open(new Uint8Array(bytes));
-  },
+  session_open: ({ file }, progress) => openInChunks(file, progress),
+  engine_memory: () => core.engine_memory(),
   session_levels: ({ column, limit }) => core.session_levels(column, limit ?? 50),
   session_prepare: ({ study }, progress) => {
     progress(0, 1, 'note features');
@@ -63,6 +61,36 @@ const METHODS = {
   study_from_toml: ({ text }) => core.study_from_toml(text),
 };
 
+// A cohort file arrives as a Blob (a File picked or dropped, or the demo's
+// bytes): handing a Blob to a worker passes a reference, not a copy, so
+// neither the page nor this worker ever holds the whole file. It goes into
+// the core's memory a chunk at a time, with progress, and is read there.
+// Weighting: copying is quick next to reading, a tenth of the bar.
+const CHUNK = 8 << 20;
+const COPY_SHARE = 0.1;
+
+async function openInChunks(file, progress) {
+  const size = file.size;
+  const mb = (n) => `${(n / 1e6).toFixed(0)} of ${(size / 1e6).toFixed(0)} MB`;
+  core.session_begin(size);
+  for (let at = 0; at < size; at += CHUNK) {
+    progress(COPY_SHARE * (at / Math.max(1, size)), 1, `loading ${mb(at)}`);
+    let chunk;
+    try {
+      chunk = await file.slice(at, Math.min(size, at + CHUNK)).arrayBuffer();
+    } catch (err) {
+      // Moved, deleted or changed on disk since it was picked.
+      const message = `The browser could not read the file (${err?.message ?? err}); pick it again.`;
+      throw { kind: 'data', message, detail: message, row: null, column: null, key: null };
+    }
+    core.session_push(new Uint8Array(chunk));
+  }
+  progress(COPY_SHARE, 1, 'reading rows');
+  return core.session_finish((done, total) =>
+    progress(COPY_SHARE + (1 - COPY_SHARE) * (done / Math.max(1, total)), 1, `reading rows, ${Math.floor((100 * done) / Math.max(1, total))}%`),
+  );
+}
+
 // A chart is painted by the core on a canvas of the worker's own; the page
 // receives the picture as an ImageBitmap (handed over, not copied) and shows
 // it in its <canvas>, so drawing costs the page's main thread nothing.
@@ -72,6 +100,10 @@ function paint(width, height, draw) {
   const bitmap = canvas.transferToImageBitmap();
   return withTransfer({ bitmap, width, height }, [bitmap]);
 }
+
+// Methods made of several bindings, by the binding they cannot do without.
+const NEEDS = { session_open: 'session_finish' };
+const available = (name) => typeof core[NEEDS[name] ?? name] === 'function';
 
 const TRANSFER = Symbol('transfer');
 function withTransfer(value, list) {
@@ -92,26 +124,26 @@ async function init(wasm) {
   try {
     const bytes = typeof wasm === 'string' ? fromBase64(wasm) : wasm;
     await core({ module_or_path: bytes });
-    const methods = Object.keys(METHODS).filter((name) => typeof core[name] === 'function');
+    const methods = Object.keys(METHODS).filter(available);
     self.postMessage({ type: 'ready', version: core.version(), methods });
   } catch (err) {
     self.postMessage({ type: 'failed', error: toErrorShape(err, 'The engine could not start') });
   }
 }
 
-function call({ id, method, args }) {
+async function call({ id, method, args }) {
   if (broken) {
     self.postMessage({ type: 'error', id, fatal: true, error: internal('The engine must restart after an internal error.') });
     return;
   }
-  const run = Object.hasOwn(METHODS, method) && typeof core[method] === 'function' ? METHODS[method] : null;
+  const run = Object.hasOwn(METHODS, method) && available(method) ? METHODS[method] : null;
   if (!run) {
     self.postMessage({ type: 'error', id, fatal: false, error: internal(`This build has no engine method "${method}".`) });
     return;
   }
   const progress = (done, total, label) => self.postMessage({ type: 'progress', id, done, total, label });
   try {
-    const out = run(args ?? {}, progress);
+    const out = await run(args ?? {}, progress);
     if (out && typeof out === 'object' && TRANSFER in out) {
       self.postMessage({ type: 'result', id, value: out.value }, out[TRANSFER]);
     } else {

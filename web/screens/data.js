@@ -92,28 +92,24 @@ export function mountData(screen, engine, onReady) {
   // must not overwrite it.
   let latest = 0;
 
-  async function openFile(file) {
-    let bytes;
-    try {
-      bytes = await file.arrayBuffer();
-    } catch (err) {
-      showError(
-        { kind: 'data', message: `The browser could not read the file: ${err?.message ?? err}`, row: null, column: null },
-        `Could not open “${file.name}”`,
-      );
-      return;
-    }
-    await openBytes(file.name, bytes);
+  // A picked or dropped file goes to the engine as it is: the worker reads
+  // it in chunks, so the page never holds its bytes.
+  function openFile(file) {
+    return openSource(file.name, file);
   }
 
-  async function openBytes(name, bytes) {
+  /** Open bytes made in the page (the demo cohort) like a picked file. */
+  function openBytes(name, bytes) {
+    return openSource(name, new Blob([bytes]));
+  }
+
+  async function openSource(name, file) {
     const token = ++latest;
-    const buffer = toArrayBuffer(bytes);
     clearError();
     summary.hidden = true;
-    status.textContent = `Reading “${name}” (${formatBytes(buffer.byteLength)})…`;
+    status.textContent = `Reading “${name}” (${formatBytes(file.size)})…`;
     try {
-      const [result, markers] = await Promise.all([openCohort(name, buffer), missingMarkers(engine)]);
+      const [result, markers] = await Promise.all([openCohort(name, file), missingMarkers(engine)]);
       if (token !== latest) return;
       status.textContent = '';
       store.file = { name, summary: result };
@@ -275,12 +271,6 @@ function missingCell(missing, rows) {
 
 function describeMarkers(markers) {
   return markers.map((m) => (m === '' ? 'empty cells' : `“${m}”`)).join(', ') + ' (in any letter case)';
-}
-
-function toArrayBuffer(bytes) {
-  if (bytes instanceof ArrayBuffer) return bytes;
-  // A view (say a Uint8Array from the core): copy just its window.
-  return bytes.buffer.slice(bytes.byteOffset, bytes.byteOffset + bytes.byteLength);
 }
 
 function formatBytes(n) {

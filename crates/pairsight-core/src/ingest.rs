@@ -13,7 +13,6 @@
 use crate::{Error, Result};
 use serde::Serialize;
 use std::borrow::Cow;
-use std::collections::BTreeSet;
 
 /// What a column holds, as inferred from its non-missing cells.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, serde::Deserialize, PartialOrd, Ord)]
@@ -64,6 +63,13 @@ impl Cells {
     /// No cells.
     pub fn new() -> Cells {
         Cells::default()
+    }
+    /// No cells, with room for `cells` cells of `text` bytes in all.
+    pub fn with_capacity(text: usize, cells: usize) -> Cells {
+        Cells {
+            text: String::with_capacity(text),
+            ends: Vec::with_capacity(cells),
+        }
     }
     /// Number of cells.
     pub fn len(&self) -> usize {
@@ -164,13 +170,14 @@ impl Column {
     /// Distinct non-missing values, trimmed, in sorted order (numeric order
     /// when all are numbers, else text order).
     pub fn levels(&self) -> Vec<String> {
-        let set: BTreeSet<&str> = self
-            .cells
-            .iter()
-            .map(|c| c.trim())
-            .filter(|c| !is_missing(c))
-            .collect();
-        let mut v: Vec<String> = set.into_iter().map(str::to_string).collect();
+        self.first_levels(usize::MAX)
+    }
+    /// The first `limit` of [`Column::levels`], copying only those: a notes
+    /// column's levels are its whole text.
+    pub fn first_levels(&self, limit: usize) -> Vec<String> {
+        let mut v = present(&self.cells);
+        v.sort_unstable();
+        v.dedup();
         if v.iter().all(|s| self.format.parse(s).is_some()) {
             v.sort_by(|a, b| {
                 let (x, y) = (self.format.parse(a), self.format.parse(b));
@@ -179,8 +186,24 @@ impl Column {
                     .then_with(|| a.cmp(b))
             });
         }
-        v
+        v.into_iter().take(limit).map(str::to_string).collect()
     }
+    /// How many [`Column::levels`] there are, without copying them.
+    pub fn distinct_count(&self) -> usize {
+        let mut v = present(&self.cells);
+        v.sort_unstable();
+        v.dedup();
+        v.len()
+    }
+}
+
+/// The cells that are not missing, trimmed.
+fn present(cells: &Cells) -> Vec<&str> {
+    cells
+        .iter()
+        .map(|c| c.trim())
+        .filter(|c| !is_missing(c))
+        .collect()
 }
 
 /// A cohort table: named columns of equal length.
@@ -272,7 +295,7 @@ impl Table {
                     name: c.name.clone(),
                     kind: c.kind,
                     missing: c.missing_count(),
-                    distinct: c.levels().len(),
+                    distinct: c.distinct_count(),
                 })
                 .collect(),
             notices: self.notices.clone(),
@@ -664,6 +687,16 @@ pub fn number_problem(cell: &str) -> (String, Option<String>) {
 /// header is row 1 and blank lines are not counted; where the line in the
 /// file differs (multi-line notes, blank lines), messages give both.
 pub fn read_table(bytes: &[u8]) -> Result<Table> {
+    read_table_with(bytes, &mut |_, _| {})
+}
+
+/// How often [`read_table_with`] reports: after this many bytes of text.
+const PROGRESS_STEP: usize = 1 << 20;
+
+/// [`read_table`], calling `progress(done, total)` with the bytes of decoded
+/// text read so far about every mebibyte, so that a page reading a large
+/// file can show how far it is.
+pub fn read_table_with(bytes: &[u8], progress: &mut dyn FnMut(usize, usize)) -> Result<Table> {
     let Decoded {
         text,
         encoding,
@@ -741,10 +774,27 @@ pub fn read_table(bytes: &[u8]) -> Result<Table> {
             ));
         }
     }
-    let mut cells: Vec<Cells> = vec![Cells::new(); names.len()];
+    let mut cells: Vec<Cells> = if text.len() >= SIZE_FIRST {
+        column_sizes(
+            &text.as_bytes()[reader.position().byte() as usize..],
+            delimiter,
+            names.len(),
+        )
+        .into_iter()
+        .map(|(text, cells)| Cells::with_capacity(text, cells))
+        .collect()
+    } else {
+        vec![Cells::new(); names.len()]
+    };
     let mut row = 1;
     let mut last = (text.len(), 1);
+    let mut reported = 0;
     loop {
+        let at = reader.position().byte() as usize;
+        if at >= reported + PROGRESS_STEP {
+            progress(at, text.len());
+            reported = at;
+        }
         match reader.read_record(&mut rec) {
             Ok(true) => {}
             Ok(false) => break,
@@ -847,6 +897,37 @@ pub fn read_table(bytes: &[u8]) -> Result<Table> {
     })
 }
 
+/// From this size of text on, [`read_table_with`] first measures each
+/// column: growing a column's buffer by doubling would need up to three
+/// times its text at once (the old buffer, the new one twice as large),
+/// which for a large file in a page's memory is the difference between
+/// reading it and running out.
+const SIZE_FIRST: usize = 8 << 20;
+
+/// Bytes of text and number of cells in each of `n` columns of the rows in
+/// `body` (the file after its header), counting only rows of `n` fields as
+/// the reading proper keeps; a quick pass without decoding the cells.
+fn column_sizes(body: &[u8], delimiter: u8, n: usize) -> Vec<(usize, usize)> {
+    let mut reader = csv::ReaderBuilder::new()
+        .delimiter(delimiter)
+        .flexible(true)
+        .has_headers(false)
+        .from_reader(body);
+    let mut rec = csv::ByteRecord::new();
+    let mut sizes = vec![(0, 0); n];
+    // A row the reading proper refuses ends it too; stopping here is enough.
+    while let Ok(true) = reader.read_byte_record(&mut rec) {
+        if rec.len() != n {
+            continue;
+        }
+        for (size, field) in sizes.iter_mut().zip(rec.iter()) {
+            size.0 += field.len();
+            size.1 += 1;
+        }
+    }
+    sizes
+}
+
 fn single_column(name: &str) -> Error {
     let shown: String = name.chars().take(60).collect();
     Error::data(
@@ -884,11 +965,7 @@ pub fn infer_kind<S: AsRef<str>>(cells: &[S]) -> Kind {
 /// that are not numbers are reported, by row, when the column is used, rather
 /// than silently turning each number into a category of its own.
 pub fn infer_kind_in(cells: &Cells, format: NumberFormat) -> Kind {
-    let mut present: Vec<&str> = cells
-        .iter()
-        .map(|c| c.trim())
-        .filter(|c| !is_missing(c))
-        .collect();
+    let mut present = present(cells);
     if present.is_empty() {
         return Kind::Numeric;
     }
@@ -1206,6 +1283,52 @@ mod tests {
         assert_eq!(
             number_problem("seventy"),
             ("\"seventy\" is not a number".to_string(), None)
+        );
+    }
+
+    #[test]
+    fn a_large_file_is_measured_first_so_each_column_takes_just_its_text() {
+        let mut csv = String::from("id,group,note\n");
+        let mut i = 0;
+        while csv.len() <= SIZE_FIRST {
+            i += 1;
+            csv.push_str(&format!("p{i},{},\"note of \"\"{i}\"\", long\"\n", i % 2));
+        }
+        let t = read_table(csv.as_bytes()).unwrap();
+        assert_eq!(t.n_rows(), i);
+        assert_eq!(cell(&t, 2, i - 1), format!("note of \"{i}\", long"));
+        for c in &t.columns {
+            assert_eq!(c.cells.text.capacity(), c.cells.text.len(), "{}", c.name);
+            assert_eq!(c.cells.ends.capacity(), i, "{}", c.name);
+        }
+    }
+
+    #[test]
+    fn levels_in_order_counted_and_cut_without_copying_the_rest() {
+        let t = read_table(b"id,g,n\na, x ,10\nb,y,9\nc,x,NA\nd,,10\ne,z,100\n").unwrap();
+        let g = t.column("g").unwrap();
+        assert_eq!(g.levels(), ["x", "y", "z"]);
+        assert_eq!(g.distinct_count(), 3);
+        assert_eq!(g.first_levels(2), ["x", "y"]);
+        let n = t.column("n").unwrap();
+        assert_eq!(n.levels(), ["9", "10", "100"], "numeric order");
+        assert_eq!(n.distinct_count(), 3);
+        assert_eq!(n.first_levels(1), ["9"]);
+    }
+
+    #[test]
+    fn progress_is_reported_as_the_text_is_read() {
+        let mut csv = String::from("id,group\n");
+        for i in 0..400_000 {
+            csv.push_str(&format!("p{i},{}\n", i % 2));
+        }
+        let mut seen = Vec::new();
+        read_table_with(csv.as_bytes(), &mut |done, total| seen.push((done, total))).unwrap();
+        assert!(seen.len() >= 3, "{seen:?}");
+        assert!(seen.windows(2).all(|w| w[0].0 < w[1].0), "{seen:?}");
+        assert!(
+            seen.iter().all(|&(d, t)| d <= t && t == csv.len()),
+            "{seen:?}"
         );
     }
 

@@ -72,11 +72,62 @@ pub fn summarize_csv(bytes: &[u8]) -> Result<JsValue, JsValue> {
     to_js(&table.summary())
 }
 
-/// Open a cohort file (CSV bytes) as the worker's session table and return
-/// its summary, like [`summarize_csv`]; forgets the previous study and runs.
+/// Start taking in a cohort file of `size` bytes, chunk by chunk, so that
+/// the page never holds the whole file: refused up front, with the limit
+/// named, when it is larger than the page reads ([`session::begin`]).
 #[wasm_bindgen]
-pub fn session_open(bytes: &[u8]) -> Result<JsValue, JsValue> {
-    to_js(&session::open(bytes).map_err(js_err)?)
+pub fn session_begin(size: f64) -> Result<(), JsValue> {
+    // A size from the page is a whole number of bytes; anything else is a
+    // fault of the page, refused rather than truncated.
+    if !(size >= 0.0 && size.fract() == 0.0) {
+        return Err(js_err(pairsight_core::Error::param(
+            "size",
+            format!("the page sent an impossible file size: {size}"),
+        )));
+    }
+    session::begin(size.min(usize::MAX as f64) as usize).map_err(js_err)
+}
+
+/// The next chunk of the file begun by [`session_begin`].
+#[wasm_bindgen]
+pub fn session_push(chunk: &[u8]) -> Result<(), JsValue> {
+    session::push(chunk).map_err(js_err)
+}
+
+/// Read the file taken in as the session's table (forgetting the previous
+/// study and runs) and return its summary, like [`summarize_csv`];
+/// `progress(done, total)` is called with bytes of text read so far.
+#[wasm_bindgen]
+pub fn session_finish(progress: &js_sys::Function) -> Result<JsValue, JsValue> {
+    let mut report = |done: usize, total: usize| {
+        // A failing progress callback must not stop the reading.
+        let _ = progress.call2(
+            &JsValue::NULL,
+            &JsValue::from_f64(done as f64),
+            &JsValue::from_f64(total as f64),
+        );
+    };
+    to_js(&session::finish(&mut report).map_err(js_err)?)
+}
+
+/// The engine's WebAssembly memory in bytes: what the page's large-file
+/// test measures against the bound stated in `docs/validation.md`.
+#[wasm_bindgen]
+pub fn engine_memory() -> f64 {
+    #[cfg(target_arch = "wasm32")]
+    {
+        (core::arch::wasm32::memory_size(0) * 65536) as f64
+    }
+    #[cfg(not(target_arch = "wasm32"))]
+    {
+        0.0
+    }
+}
+
+/// The largest cohort file the page reads, in bytes.
+#[wasm_bindgen]
+pub fn max_file_bytes() -> f64 {
+    session::MAX_FILE_BYTES as f64
 }
 
 /// Set the session's study (the page's study object, the same fields as a

@@ -7,7 +7,7 @@
 //! with it the session, and the page sends the file and study again.
 
 use pairsight_core::balance::{BalanceRow, TermKind};
-use pairsight_core::ingest::{read_table, Kind, Table, TableSummary};
+use pairsight_core::ingest::{read_table_with, Kind, Table, TableSummary};
 use pairsight_core::model::{Fill, LeftOut};
 use pairsight_core::notes::{self, Highlight, TermShift};
 use pairsight_core::run::{Analysis, DesignRun, OutcomeEffect, OutputFile, Summary};
@@ -40,8 +40,10 @@ fn not_prepared() -> Error {
 }
 
 /// Read a cohort file and make it the session's table; forgets any study.
-pub fn open(bytes: &[u8]) -> Result<TableSummary> {
-    let table = read_table(bytes)?;
+fn open_with(bytes: &[u8], progress: &mut dyn FnMut(usize, usize)) -> Result<TableSummary> {
+    // The old session's memory is free for the new file before it is read.
+    STATE.with(|s| *s.borrow_mut() = State::default());
+    let table = read_table_with(bytes, progress)?;
     let summary = table.summary();
     STATE.with(|s| {
         *s.borrow_mut() = State {
@@ -50,6 +52,105 @@ pub fn open(bytes: &[u8]) -> Result<TableSummary> {
         }
     });
     Ok(summary)
+}
+
+/// The largest cohort file the page reads. Reading needs the file's bytes
+/// and its cells at once (about two to three times the file in memory, see
+/// `docs/validation.md`), and a page's WebAssembly memory ends at 4 GiB.
+pub const MAX_FILE_BYTES: usize = 1_000_000_000;
+
+thread_local! {
+    /// A file on its way in, chunk by chunk ([`begin`], [`push`], [`finish`]).
+    static INCOMING: RefCell<Option<Incoming>> = const { RefCell::new(None) };
+}
+
+struct Incoming {
+    bytes: Vec<u8>,
+    size: usize,
+}
+
+fn megabytes(n: usize) -> String {
+    format!("{:.1} MB", n as f64 / 1e6)
+}
+
+/// Start taking in a file of `size` bytes: refused up front when it is too
+/// large for the page, and its memory reserved at once so that a file the
+/// browser cannot hold fails here, with a message, rather than half-way.
+/// Forgets the previous session.
+pub fn begin(size: usize) -> Result<()> {
+    INCOMING.with(|i| *i.borrow_mut() = None);
+    STATE.with(|s| *s.borrow_mut() = State::default());
+    if size > MAX_FILE_BYTES {
+        return Err(Error::data(
+            None,
+            None,
+            format!(
+                "the file is {}; this page reads cohort files up to {} (reading needs two to three times the file's size in the browser's memory); use the command-line tool, `pairsight match`, for larger files, or save only the columns the study uses",
+                megabytes(size),
+                megabytes(MAX_FILE_BYTES)
+            ),
+        ));
+    }
+    let mut bytes = Vec::new();
+    bytes.try_reserve_exact(size).map_err(|_| {
+        Error::data(
+            None,
+            None,
+            format!(
+                "the browser could not set aside {} of memory for this file; close other tabs and try again, or use the command-line tool, `pairsight match`",
+                megabytes(size)
+            ),
+        )
+    })?;
+    INCOMING.with(|i| *i.borrow_mut() = Some(Incoming { bytes, size }));
+    Ok(())
+}
+
+/// Append the next chunk of the file announced by [`begin`].
+pub fn push(chunk: &[u8]) -> Result<()> {
+    INCOMING.with(|i| {
+        let mut i = i.borrow_mut();
+        let incoming = i.as_mut().ok_or_else(|| {
+            Error::param(
+                "session",
+                "no file is being read: the page must begin one first",
+            )
+        })?;
+        if incoming.bytes.len() + chunk.len() > incoming.size {
+            *i = None;
+            return Err(Error::data(
+                None,
+                None,
+                "the file grew while it was being read; save it again and reopen it",
+            ));
+        }
+        incoming.bytes.extend_from_slice(chunk);
+        Ok(())
+    })
+}
+
+/// Read the file taken in by [`begin`] and [`push`] as the session's table,
+/// reporting progress as [`read_table_with`] does; its bytes are freed
+/// before the summary is made.
+pub fn finish(progress: &mut dyn FnMut(usize, usize)) -> Result<TableSummary> {
+    let incoming = INCOMING.with(|i| i.borrow_mut().take()).ok_or_else(|| {
+        Error::param(
+            "session",
+            "no file is being read: the page must begin one first",
+        )
+    })?;
+    if incoming.bytes.len() != incoming.size {
+        return Err(Error::data(
+            None,
+            None,
+            format!(
+                "only {} of the file's {} arrived; reopen it",
+                megabytes(incoming.bytes.len()),
+                megabytes(incoming.size)
+            ),
+        ));
+    }
+    open_with(&incoming.bytes, progress)
 }
 
 /// Summary statistics of one variable in one group (descriptive, for the
@@ -560,8 +661,6 @@ pub fn levels(column: &str, limit: usize) -> Result<Vec<String>> {
     STATE.with(|s| {
         let s = s.borrow();
         let table = s.table.as_ref().ok_or_else(no_file)?;
-        let mut v = table.column(column)?.levels();
-        v.truncate(limit);
-        Ok(v)
+        Ok(table.column(column)?.first_levels(limit))
     })
 }
