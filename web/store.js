@@ -96,7 +96,9 @@ export function guessStudy(summary) {
     cols.find((c) => /(^|_)id$/i.test(c.name) && c.distinct === summary.rows) ??
     cols.find((c) => c.distinct === summary.rows && c.kind !== 'text');
   const group = cols.find((c) => c.kind === 'binary');
-  const notes = cols.find((c) => c.kind === 'text');
+  // Notes: a text column other than the id, by its name when one says so.
+  const texts = cols.filter((c) => c.kind === 'text' && c !== id);
+  const notes = texts.find((c) => /note|text|narrative|comment/i.test(c.name)) ?? texts[0];
   return {
     columns: {
       id: id?.name ?? cols[0]?.name ?? '',
