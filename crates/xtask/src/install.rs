@@ -29,6 +29,7 @@ pub fn install(scope: Scope) -> Result<()> {
     wasm_bindgen_cli()?;
     wasm_opt(&mut apt)?;
     if scope == Scope::Test {
+        cargo_fuzz()?;
         browser(&mut apt)?;
         node(&mut apt)?;
         npm_packages()?;
@@ -60,6 +61,24 @@ pub fn pinned_wasm_bindgen() -> Result<String> {
     lock_version(&text, "wasm-bindgen").ok_or_else(|| {
         Failure::new("Cargo.lock has no wasm-bindgen entry; run `cargo generate-lockfile`")
     })
+}
+
+/// cargo-fuzz, which builds and runs the fuzz targets of `tests/fuzz`.
+const CARGO_FUZZ: &str = "0.13.2";
+
+fn cargo_fuzz() -> Result<()> {
+    if reported_version("cargo-fuzz").as_deref() == Some(CARGO_FUZZ) {
+        println!("ok: cargo-fuzz {CARGO_FUZZ}");
+        return Ok(());
+    }
+    println!("installing: cargo-fuzz {CARGO_FUZZ} (runs the fuzz targets)");
+    sh::run(Command::new("cargo").args([
+        "install",
+        "cargo-fuzz",
+        "--version",
+        &format!("={CARGO_FUZZ}"),
+        "--locked",
+    ]))
 }
 
 /// The version of `package` in a Cargo.lock text.

@@ -57,6 +57,7 @@ pub fn run() -> Result<()> {
                 .args(["test", "--workspace"]),
         )
     });
+    recap.step("fuzz (short)", &["install"], || fuzz_short(&root));
     recap.step("wasm build", &["install"], || {
         let built = dist::build()?;
         let size = format!(
@@ -152,6 +153,35 @@ fn fresh_dir(dir: &Path) -> Result<PathBuf> {
     }
     std::fs::create_dir_all(dir)?;
     Ok(dir.to_path_buf())
+}
+
+/// Inputs each fuzz target runs in `cargo xtask test`: a fixed number from
+/// a fixed seed, so the step gives the same verdict every time; longer
+/// timed runs are by hand (`tests/fuzz/run-short.sh`, docs/validation.md).
+const FUZZ_RUNS: &str = "20000";
+
+/// The fuzz targets of `tests/fuzz`, each for [`FUZZ_RUNS`] inputs.
+fn fuzz_short(root: &Path) -> Result<String> {
+    let (lines, ok) = sh::run_keeping_output(
+        Command::new("sh")
+            .current_dir(root)
+            .arg("tests/fuzz/run-short.sh")
+            .env("FUZZ_RUNS", FUZZ_RUNS)
+            .env("FUZZ_SEED", "1"),
+    )?;
+    let passed = lines
+        .iter()
+        .filter(|l| l.starts_with("ok: fuzz target"))
+        .count();
+    if ok && passed > 0 {
+        Ok(format!(
+            "{passed} fuzz targets, {FUZZ_RUNS} inputs each from seed 1: no finding"
+        ))
+    } else {
+        Err(Failure::new(format!(
+            "a fuzz target failed ({passed} passed); the input is under tests/fuzz/artifacts/"
+        )))
+    }
 }
 
 /// The end-to-end tests: node's test runner driving Chromium with
