@@ -58,6 +58,21 @@ pub fn run() -> Result<()> {
         )
     });
     recap.step("fuzz (short)", &["install"], || fuzz_short(&root));
+    // The 2,000,000-row run of `pairsight match` takes minutes in a debug
+    // build and seconds in release, so it runs here, in release, by name.
+    recap.step("large input", &[], || {
+        libtest(Command::new("cargo").current_dir(&root).args([
+            "test",
+            "--release",
+            "-p",
+            "pairsight-cli",
+            "--test",
+            "large_input",
+            "--",
+            "--ignored",
+            "--nocapture",
+        ]))
+    });
     recap.step("wasm build", &["install"], || {
         let built = dist::build()?;
         let size = format!(
