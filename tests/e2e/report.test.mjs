@@ -28,11 +28,11 @@ test('the report opens from disk with no request and shows every section', async
   const dir = await scratch(t);
   // A rated round first, so the expert-review section is there too.
   let r = pairsight(['packet', fixture('small.csv'), '--study', fixture('small.study.toml'), '--out', dir,
-    '--reviewers', 'ana,ben', '--sets-per-design', '6']);
+    '--reviewers', 'rev-a,rev-b', '--sets-per-design', '6']);
   assert.equal(r.status, 0, r.stderr);
   const key = JSON.parse(await readFile(path.join(dir, 'round-key.json'), 'utf8'));
   const files = [];
-  for (const [who, shift] of [['ana', 0], ['ben', 1]]) {
+  for (const [who, shift] of [['rev-a', 0], ['rev-b', 1]]) {
     const lines = ['round_id,pair_key,reviewer,rating,comment,time'];
     key.round.items.forEach((it, i) => {
       lines.push(`${key.round.round_id},${it.pair_key},${who},${((i + shift) % 5) + 1},,2025-03-04T10:15:00.000Z`);
@@ -67,7 +67,7 @@ test('the report opens from disk with no request and shows every section', async
     s.map((x) => x.getBoundingClientRect().height > 100),
   );
   assert.ok(charts.length >= 5 && charts.every(Boolean), `${charts.length} charts`);
-  assert.ok(await page.locator('#review th', { hasText: 'weighted kappa (quadratic), ana and ben' }).isVisible());
+  assert.ok(await page.locator('#review th', { hasText: 'weighted kappa (quadratic), rev-a and rev-b' }).isVisible());
   assert.ok(await page.locator('#effect h3', { hasText: 'Outcome readmit_30d' }).isVisible());
   // The study file is there for reproduction, behind a disclosure.
   await page.locator('#study summary').click();

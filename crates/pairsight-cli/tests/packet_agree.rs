@@ -47,7 +47,7 @@ fn a_round_is_drawn_rated_and_merged() {
         &dir,
         &[
             "--reviewers",
-            "ana,ben",
+            "rev-a,rev-b",
             "--sets-per-design",
             "10",
             "--seed",
@@ -58,13 +58,13 @@ fn a_round_is_drawn_rated_and_merged() {
     );
     ok(&o);
     assert!(stdout(&o).contains("keep"));
-    for f in ["packet-ana.html", "packet-ben.html", "round-key.json"] {
+    for f in ["packet-rev-a.html", "packet-rev-b.html", "round-key.json"] {
         assert!(dir.join(f).exists(), "{f}");
     }
     let key = key_of(&dir);
     let n = key["round"]["items"].as_array().unwrap().len();
     assert!((11..=20).contains(&n), "{n} pairs");
-    let packet = std::fs::read_to_string(dir.join("packet-ana.html")).unwrap();
+    let packet = std::fs::read_to_string(dir.join("packet-rev-a.html")).unwrap();
     assert!(packet.contains(key["round"]["round_id"].as_str().unwrap()));
     assert!(!packet.contains("structured") && !packet.contains("with-notes"));
     assert!(!packet.contains("P0"), "no identifier in a packet");
@@ -75,7 +75,7 @@ fn a_round_is_drawn_rated_and_merged() {
         &again,
         &[
             "--reviewers",
-            "ana,ben",
+            "rev-a,rev-b",
             "--sets-per-design",
             "10",
             "--seed",
@@ -86,12 +86,12 @@ fn a_round_is_drawn_rated_and_merged() {
     ));
     assert_eq!(key_of(&again)["round"], key["round"]);
     assert_eq!(
-        std::fs::read(again.join("packet-ana.html")).unwrap(),
+        std::fs::read(again.join("packet-rev-a.html")).unwrap(),
         packet.as_bytes()
     );
 
-    let a = ratings(&dir, &key, "ana", |i| (i % 5) as i64 + 1);
-    let b = ratings(&dir, &key, "ben", |i| ((i + i / 3) % 5) as i64 + 1);
+    let a = ratings(&dir, &key, "rev-a", |i| (i % 5) as i64 + 1);
+    let b = ratings(&dir, &key, "rev-b", |i| ((i + i / 3) % 5) as i64 + 1);
     let o = pairsight([
         "agree".as_ref(),
         "--key".as_ref(),
@@ -102,8 +102,8 @@ fn a_round_is_drawn_rated_and_merged() {
     ok(&o);
     let out = stdout(&o);
     for needle in [
-        "kappa, linear weights: ana and ben",
-        "kappa, quadratic weights: ana and ben",
+        "kappa, linear weights: rev-a and rev-b",
+        "kappa, quadratic weights: rev-a and rev-b",
         "Krippendorff's alpha, ordinal",
         "Krippendorff's alpha, interval",
         "ICC(2,1)",
@@ -145,7 +145,7 @@ fn a_round_is_drawn_rated_and_merged() {
     ]));
     let page = std::fs::read_to_string(&html).unwrap();
     assert!(page.contains("<section id=\"review\">"));
-    assert!(page.contains("weighted kappa (quadratic), ana and ben"));
+    assert!(page.contains("weighted kappa (quadratic), rev-a and rev-b"));
 }
 
 #[test]
@@ -153,7 +153,7 @@ fn bad_ratings_are_named_by_file_row_and_column() {
     let dir = fresh("packet-bad-ratings");
     ok(&packets(
         &dir,
-        &["--reviewers", "ana", "--sets-per-design", "4"],
+        &["--reviewers", "rev-a", "--sets-per-design", "4"],
     ));
     let key = key_of(&dir);
     let round = key["round"]["round_id"].as_str().unwrap();
@@ -163,15 +163,15 @@ fn bad_ratings_are_named_by_file_row_and_column() {
         &bad,
         &format!(
             "round_id,pair_key,reviewer,rating,comment,time\n\
-             {round},{first},ana,4,,2025-01-01T00:00:00Z\n\
-             {round},ZZZ-ZZZ,ana,3,,2025-01-01T00:00:00Z\n\
-             {round},{first},ana,9,,2025-01-01T00:00:00Z\n"
+             {round},{first},rev-a,4,,2025-01-01T00:00:00Z\n\
+             {round},ZZZ-ZZZ,rev-a,3,,2025-01-01T00:00:00Z\n\
+             {round},{first},rev-a,9,,2025-01-01T00:00:00Z\n"
         ),
     );
     let other = dir.join("other-round.csv");
     write(
         &other,
-        &format!("round_id,pair_key,reviewer,rating,comment,time\nR-0000000000,{first},ben,3,,2025-01-01T00:00:00Z\n"),
+        &format!("round_id,pair_key,reviewer,rating,comment,time\nR-0000000000,{first},rev-b,3,,2025-01-01T00:00:00Z\n"),
     );
     let o = pairsight([
         "agree".as_ref(),
@@ -212,19 +212,19 @@ fn packets_refuse_unblinding_fields_and_bad_reviewer_labels() {
     let dir = fresh("packet-refuse");
     let err = bad_input(&packets(
         &dir,
-        &["--reviewers", "ana", "--show", "early_plan"],
+        &["--reviewers", "rev-a", "--show", "early_plan"],
     ));
     assert!(err.contains("early_plan") && err.contains("group"), "{err}");
     let err = bad_input(&packets(
         &dir,
-        &["--reviewers", "ana", "--show", "readmit_30d"],
+        &["--reviewers", "rev-a", "--show", "readmit_30d"],
     ));
     assert!(err.contains("outcome"), "{err}");
-    let err = bad_input(&packets(&dir, &["--reviewers", "ana", "--show", "agee"]));
+    let err = bad_input(&packets(&dir, &["--reviewers", "rev-a", "--show", "agee"]));
     assert!(err.contains("agee"), "{err}");
     let err = bad_input(&packets(&dir, &["--reviewers", "an a"]));
     assert!(err.contains("an a"), "{err}");
-    let err = bad_input(&packets(&dir, &["--reviewers", "ana", "--designs", "nope"]));
+    let err = bad_input(&packets(&dir, &["--reviewers", "rev-a", "--designs", "nope"]));
     assert!(
         err.contains("nope") && err.contains("small.study.toml"),
         "{err}"
