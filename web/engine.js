@@ -2,7 +2,8 @@
 // computation ever runs on the main thread and the page stays responsive.
 //
 // Protocol (plain objects, structured-cloned by postMessage):
-//   page -> worker  {type: 'init', wasm}            wasm: ArrayBuffer, or base64 text
+//   page -> worker  {type: 'init', wasm, lock}      wasm: ArrayBuffer, or base64 text;
+//                                                   lock: a Web Lock name to hold for life, or null
 //                   {type: 'call', id, method, args}
 //   worker -> page  {type: 'ready', version, methods}
 //                   {type: 'failed', error}          the core could not start

@@ -212,6 +212,32 @@ test('a packet keeps every confirmed rating through reload, closed tab, crash, s
   assert.deepEqual(errors, [], 'no errors in the packet');
 });
 
+test('a packet whose ratings cannot be stored says so at each rating and asks before closing', async (t) => {
+  const dir = await scratch(t);
+  const r = pairsight(['packet', fixture('small.csv'), '--study', fixture('small.study.toml'), '--out', dir,
+    '--reviewers', 'eli', '--sets-per-design', '2', '--seed', '3']);
+  assert.equal(r.status, 0, r.stderr);
+  const { page, log } = await openBrowser(t);
+  // Storage that reads but refuses every write, as a full quota does.
+  await page.addInitScript(() => {
+    Storage.prototype.setItem = function () {
+      throw new DOMException('The quota has been exceeded.', 'QuotaExceededError');
+    };
+  });
+  await page.goto(pathToFileURL(path.join(dir, 'packet-eli.html')).href);
+  await page.locator('#app:not([hidden])').waitFor();
+  await page.keyboard.press('3');
+  assert.match(await page.locator('#status').textContent(), /^Rated 3, but your ratings could not be kept in this browser\. Export them now/);
+  await page.keyboard.press('ArrowRight');
+  await page.keyboard.press('4');
+  assert.match(await page.locator('#status').textContent(), /could not be kept/, 'said again at the next rating');
+  await screenshot(page, 'loss-packet-no-storage');
+  const dialogs = dialogsOf(page);
+  await closeTab(page);
+  assert.deepEqual(dialogs, ['beforeunload']);
+  assertQuiet(log);
+});
+
 /** Rate every pair of the packet at `file` in a new tab; returns the ratings file's path. */
 async function rateAll(context, file, ratingOf) {
   const page = await context.newPage();
@@ -330,11 +356,7 @@ test('the Review step survives a crashed engine worker and asks before losing an
   // call that needs it opens it again, unasked.
   await killWorker(page);
   await step(page, 'export');
-  const report = await downloaded(page, 'export-report').catch(async (e) => {
-    trace('banner', await page.getByTestId('error-banner').textContent(), await page.getByTestId('progress').textContent());
-    await screenshot(page, 'loss-debug');
-    throw e;
-  });
+  const report = await downloaded(page, 'export-report');
   assert.match(report.bytes.toString('utf8'), /id="review"/);
   assert.ok(report.bytes.toString('utf8').trimEnd().endsWith('</html>'), 'the report is whole');
 
