@@ -330,6 +330,22 @@ test('the Review step survives a crashed engine worker and asks before losing an
   assert.deepEqual(await page.locator('[data-testid="rating-files"] li').evaluateAll((l) => l.map((x) => x.dataset.file)), ['ratings-rev-a.csv', 'ratings-rev-b.csv']);
   await screenshot(page, 'loss-review-after-crash');
 
+  // The worker dies in the middle of a merge: it computes, then ends
+  // instead of answering. The page notices, and the merge is asked again of
+  // a fresh worker.
+  const [worker] = page.workers();
+  await worker.evaluate(() => {
+    const send = self.postMessage.bind(self);
+    self.postMessage = (msg, transfer) => (msg?.type === 'result' ? self.close() : send(msg, transfer));
+  });
+  const replaced = page.waitForEvent('worker', { timeout: 20_000 });
+  await page.getByTestId('review-level').fill('4');
+  await page.getByTestId('review-level').press('Tab');
+  await replaced;
+  await page.locator('[data-testid="comparison-table"] th', { hasText: /Share ≥ 4/ }).waitFor({ timeout: 30_000 });
+  assert.equal(await page.getByTestId('error-banner').isHidden(), true, await page.getByTestId('error-banner').textContent());
+  assert.equal(await page.getByTestId('merge-summary').textContent(), summary, 'the same ratings, merged on the fresh worker');
+
   // Saving the results file: whole JSON with the merge as shown.
   const results = await downloaded(page, 'save-review');
   assert.equal(results.name, `review-${keyJson.round.round_id}.json`);
