@@ -2,7 +2,8 @@
 // computation ever runs on the main thread and the page stays responsive.
 //
 // Protocol (plain objects, structured-cloned by postMessage):
-//   page -> worker  {type: 'init', wasm}            wasm: ArrayBuffer, or base64 text
+//   page -> worker  {type: 'init', wasm, lock}      wasm: ArrayBuffer, or base64 text;
+//                                                   lock: a Web Lock name to hold for life, or null
 //                   {type: 'call', id, method, args}
 //   worker -> page  {type: 'ready', version, methods}
 //                   {type: 'failed', error}          the core could not start
@@ -14,6 +15,15 @@
 // fault of the engine itself, 'cancelled' for a call the page called off.
 // A synchronous wasm call cannot be interrupted, so cancelling ends the worker
 // and starts a fresh one; the calls in flight reject with kind 'cancelled'.
+//
+// A worker can also die without a word (it closed itself, or the browser
+// ended it): no message and no error event reach the page, and every call
+// would wait for ever. So the init message names a Web Lock that the worker
+// takes and holds for its whole life; the page queues for the same lock once
+// the worker is ready, and is granted it exactly when the worker is gone,
+// busy or not. Then the engine starts a fresh worker, the calls in flight
+// reject with kind 'internal', and `onRestart` listeners hear of it (the
+// worker's session is gone with it).
 
 /** Ids of the single file's data elements (written by `cargo xtask build`). */
 const WORKER_SOURCE_ID = 'pairsight-worker';
@@ -55,26 +65,49 @@ export function startEngine(source) {
   let info = null;
   let readyPromise = null;
   let settleReady = null;
+  let generation = 0;
+  const restartListeners = new Set();
+  // Lock names are per origin, shared by every tab of it: make ours unique.
+  const lockPrefix = `pairsight-engine-${Date.now().toString(36)}-${Math.random().toString(36).slice(2)}-`;
 
   function spawn() {
     info = null;
+    generation += 1;
+    const lock = navigator.locks ? `${lockPrefix}${generation}` : null;
     readyPromise = new Promise((resolve, reject) => {
       settleReady = { resolve, reject };
     });
     // Nobody may be waiting yet; an unobserved failure must not become an
     // unhandled rejection (the page reports it through `ready()`).
     readyPromise.catch(() => {});
+    const mine = generation;
     worker = new Worker(source.workerUrl);
-    worker.addEventListener('message', onMessage);
+    worker.addEventListener('message', (event) => {
+      if (event.data?.type === 'ready' && lock) watch(lock, mine);
+      onMessage(event);
+    });
     worker.addEventListener('error', (event) => {
       event.preventDefault();
       const message = event.message || 'the engine script could not be loaded';
-      fail(engineError('internal', `The engine stopped: ${message}`));
+      const error = engineError('internal', `The engine stopped: ${message}`);
+      // Before it is ready the worker cannot start at all: restarting would
+      // only fail again. After that, its state is suspect: start afresh.
+      if (info && mine === generation) restart(error);
+      else if (mine === generation) fail(error);
     });
     source.wasm.then(
-      (wasm) => worker.postMessage({ type: 'init', wasm }),
+      (wasm) => worker.postMessage({ type: 'init', wasm, lock }),
       (err) => fail(engineError('internal', `The engine could not load its code: ${err.message ?? err}`)),
     );
+  }
+
+  // Granted only once worker `mine` no longer holds the lock, i.e. is dead.
+  function watch(lock, mine) {
+    navigator.locks
+      .request(lock, () => {
+        if (mine === generation) restart(engineError('internal', 'The engine stopped unexpectedly and was restarted; try again.'));
+      })
+      .catch(() => {});
   }
 
   function fail(error) {
@@ -88,6 +121,7 @@ export function startEngine(source) {
     for (const job of pending.values()) job.reject(error);
     pending.clear();
     spawn();
+    for (const fn of [...restartListeners]) fn(error);
   }
 
   function onMessage(event) {
@@ -158,5 +192,10 @@ export function startEngine(source) {
     /** Whether this build's core has `method` (known once ready). */
     has: (method) => Boolean(info?.methods.includes(method)),
     call,
+    /** Call `fn(error)` whenever a fresh worker replaced the old one; returns an unsubscribe function. */
+    onRestart(fn) {
+      restartListeners.add(fn);
+      return () => restartListeners.delete(fn);
+    },
   };
 }

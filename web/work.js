@@ -13,12 +13,18 @@ let engine = null;
 let source = null; // the open file as a Blob, to re-open it in a fresh worker
 let engineFile = false; // whether the worker's session has the file
 let engineStudy = null; // JSON of the study the worker's session has prepared
+let pageStudy = null; // JSON of the study the runs in `store.runs` were made with
 let queue = Promise.resolve();
 let controller = null;
 
 /** Connect to the engine and draw the progress strip. */
 export function mountWork(theEngine) {
   engine = theEngine;
+  // A worker that died while idle took its session with it.
+  engine.onRestart?.(() => {
+    engineFile = false;
+    engineStudy = null;
+  });
   const strip = byTestId('progress');
   const label = el('span', { class: 'progress-label', 'data-testid': 'progress-label' });
   const bar = el('progress', { class: 'progress-bar', max: '1', value: '0', 'aria-label': 'Progress of the work' });
@@ -90,9 +96,14 @@ async function ensureStudy(step) {
   const prepared = await step('session_prepare', { study: studyForCore() });
   engineStudy = wanted;
   store.prepared = prepared;
-  // Runs the engine no longer holds are out of date.
-  const kept = new Set(prepared.cached_runs);
-  for (const name of [...store.runs.keys()]) if (!kept.has(name)) store.runs.delete(name);
+  // Runs the engine no longer holds are out of date, unless only the worker
+  // is new (a cancel or a crash) and the study is the same: then they are
+  // still right, and `withSession` re-runs them in the fresh worker on demand.
+  if (pageStudy !== wanted) {
+    const kept = new Set(prepared.cached_runs);
+    for (const name of [...store.runs.keys()]) if (!kept.has(name)) store.runs.delete(name);
+  }
+  pageStudy = wanted;
   return prepared;
 }
 

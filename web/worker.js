@@ -116,12 +116,22 @@ let broken = false;
 
 self.addEventListener('message', (event) => {
   const msg = event.data;
-  if (msg.type === 'init') init(msg.wasm);
+  if (msg.type === 'init') init(msg.wasm, msg.lock);
   else if (msg.type === 'call') call(msg);
 });
 
-async function init(wasm) {
+async function init(wasm, lock) {
   try {
+    // Held until this worker ends, however it ends: the page's engine
+    // learns of a silent death when the lock is freed (engine.js).
+    if (lock && self.navigator?.locks) {
+      await new Promise((held) => {
+        navigator.locks.request(lock, () => {
+          held();
+          return new Promise(() => {});
+        }).catch(held);
+      });
+    }
     const bytes = typeof wasm === 'string' ? fromBase64(wasm) : wasm;
     await core({ module_or_path: bytes });
     const methods = Object.keys(METHODS).filter(available);

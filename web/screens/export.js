@@ -6,18 +6,8 @@ import { el, replaceChildren } from '../dom.js';
 import { showError, clearError, showNotice } from '../banner.js';
 import { store, changed, saveStudy, normalizeStudy, studyForCore } from '../store.js';
 import { withSession, plain } from '../work.js';
-import { review, reviewUpload } from './review.js';
-
-/** Offer `data` (text or Blob) as a download named `name`. */
-export function download(name, data, type) {
-  const blob = data instanceof Blob ? data : new Blob([data], { type });
-  const url = URL.createObjectURL(blob);
-  const a = el('a', { href: url, download: name, hidden: true });
-  document.body.append(a);
-  a.click();
-  a.remove();
-  setTimeout(() => URL.revokeObjectURL(url), 10_000);
-}
+import { review, reviewUpload, reviewExported } from './review.js';
+import { saveFile as download } from '../saving.js';
 
 /** Draw the step into `screen`. */
 export function mountExport(screen, go) {
@@ -131,6 +121,7 @@ export function mountExport(screen, go) {
       };
       const html = await withSession('Writing the report', 'session_report', { request }, { needs: names });
       download('pairsight-report.html', html, 'text/html');
+      if (request.review) reviewExported();
     } catch (err) {
       if (err?.kind !== 'cancelled') showError(err, 'The report could not be written');
     }

@@ -4,6 +4,17 @@
 // between reviewers and the design comparison. The key and the ratings stay
 // in this page's memory (never in browser storage): the key unblinds the
 // round and names the patients behind each pair.
+//
+// What must not be lost, and how it is kept:
+// - A worker crash loses nothing: the key and the ratings files live here,
+//   not in the worker, and a merge that failed because the engine restarted
+//   is tried once more on the fresh worker.
+// - Closing or reloading the page would lose a key drawn here that was not
+//   saved yet (the packets are useless without it), and a merge whose
+//   results were not saved (as a results file, or in a report). While either
+//   holds, the page asks before it closes, and the screen says what is
+//   unsaved. Storing the key in the browser instead would leave patient
+//   identifiers on the machine; we do not.
 
 import { el, replaceChildren } from '../dom.js';
 import { showError, clearError, showNotice } from '../banner.js';
@@ -27,7 +38,46 @@ export const review = {
   /** Settings of the comparison. */
   level: 4,
   confidence: 0.95,
+  /** Whether the key of the round made here was saved. */
+  keySaved: false,
+  /** What the shown results were merged from, and what the last saved results were. */
+  mergedFrom: null,
+  savedFrom: null,
 };
+
+/** The inputs of a merge, in one string: the same inputs give the same results. */
+function mergeInputs() {
+  const files = review.files.map((f) => `${f.name}:${f.bytes.length}`).join('/');
+  return `${review.keyName}|${review.keyJson?.length}|${files}|${review.level}|${review.confidence}`;
+}
+
+/** What closing the page now would lose, in words; empty when nothing. */
+export function unsavedReview() {
+  const lost = [];
+  if (review.made && review.keyJson && !review.keySaved) lost.push(`the key of round ${review.made.round_id}`);
+  if (review.merged?.results && review.savedFrom !== review.mergedFrom) lost.push('the merged ratings’ results');
+  return lost;
+}
+
+/** Record that the current merge's results were saved (results file or report). */
+export function reviewExported() {
+  review.savedFrom = review.mergedFrom;
+  document.querySelector('[data-testid="review-unsaved"]')?.dispatchEvent(new Event('review-saved'));
+}
+
+// The browser shows its own generic question; the screen's line says what.
+window.addEventListener('beforeunload', (event) => {
+  if (!unsavedReview().length) return undefined;
+  event.preventDefault();
+  event.returnValue = '';
+  return '';
+});
+
+/** Ask before replacing a key drawn here that was never saved. */
+function mayDropKey() {
+  if (!review.made || review.keySaved) return true;
+  return window.confirm(`The key of round ${review.made.round_id} was not saved. Without it, that round’s ratings cannot be unblinded. Replace it anyway?`);
+}
 
 /** What the report needs to add the expert review, or null. */
 export function reviewUpload() {
@@ -45,12 +95,21 @@ function ranDesigns() {
 
 const REVIEWER = /^[A-Za-z0-9._-]+$/;
 
+let mergeTurn = 0;
+
 /** Draw the step into `screen`. */
 export function mountReview(screen) {
   const ran = ranDesigns();
   const roundPanel = el('section', { class: 'panel', 'data-testid': 'round-panel' });
   const importPanel = el('section', { class: 'panel', 'data-testid': 'import-panel' });
   const resultsPanel = el('div', { 'data-testid': 'review-results' });
+  const unsaved = el('p', { class: 'caution', role: 'status', 'data-testid': 'review-unsaved', hidden: true });
+  const showUnsaved = () => {
+    const lost = unsavedReview();
+    unsaved.hidden = !lost.length;
+    unsaved.textContent = lost.length ? `Not saved yet: ${lost.join(' and ')}. Save before closing this page; it is kept in this page’s memory only.` : '';
+  };
+  unsaved.addEventListener('review-saved', showUnsaved);
 
   replaceChildren(
     screen,
@@ -61,16 +120,18 @@ export function mountReview(screen) {
         'Let clinicians judge, pair by pair, whether matched patients are alike. Each reviewer gets one HTML file that opens from disk with no install ' +
         'and no network; design labels, group and outcome are hidden, and pairs and sides are shuffled.',
     }),
+    unsaved,
     roundPanel,
     importPanel,
     resultsPanel,
   );
-  drawRoundPanel(roundPanel, ran);
-  drawImportPanel(importPanel, resultsPanel);
-  drawResults(resultsPanel);
+  drawRoundPanel(roundPanel, ran, showUnsaved);
+  drawImportPanel(importPanel, resultsPanel, showUnsaved);
+  drawResults(resultsPanel, showUnsaved);
+  showUnsaved();
 }
 
-function drawRoundPanel(panel, ran) {
+function drawRoundPanel(panel, ran, showUnsaved) {
   if (!ran.length) {
     replaceChildren(panel, el('h2', { text: 'New review round' }), el('p', { class: 'muted', text: 'Run at least one design on the Designs step to draw a round from it.' }));
     return;
@@ -123,6 +184,7 @@ function drawRoundPanel(panel, ran) {
       showError({ kind: 'param', message: 'Choose at least one design to draw pairs from.' }, 'The round could not be drawn', 'Tick a design above.');
       return;
     }
+    if (!mayDropKey()) return;
     const lines = anchors.value.split('\n').map((l) => l.trim()).filter(Boolean);
     const request = {
       designs,
@@ -145,9 +207,11 @@ function drawRoundPanel(panel, ran) {
       review.made = { round_id: round.round_id, pairs: round.pairs, drawn: round.drawn, packets: round.packets };
       review.keyJson = round.key_json;
       review.keyName = `round ${round.round_id} (drawn here)`;
+      review.keySaved = false;
       review.files = [];
       review.merged = null;
-      showMade(made);
+      showMade(made, showUnsaved);
+      showUnsaved();
       document.querySelector('[data-testid="import-panel"]')?.dispatchEvent(new Event('review-changed'));
     } catch (err) {
       if (err?.kind !== 'cancelled') showError(err, 'The round could not be drawn', 'Correct the setting named above and draw again.');
@@ -191,10 +255,10 @@ function drawRoundPanel(panel, ran) {
     el('div', { class: 'field-row' }, drawButton),
     made,
   );
-  if (review.made) showMade(made);
+  if (review.made) showMade(made, showUnsaved);
 }
 
-function showMade(box) {
+function showMade(box, showUnsaved) {
   const m = review.made;
   const packetButtons = m.packets.map((p) => {
     const b = el('button', { type: 'button', class: 'button button-quiet', 'data-testid': 'download-packet', 'data-reviewer': p.reviewer, text: `Packet for ${p.reviewer}` });
@@ -202,7 +266,15 @@ function showMade(box) {
     return b;
   });
   const key = el('button', { type: 'button', class: 'button', 'data-testid': 'download-key', text: 'Round key (JSON)' });
-  key.addEventListener('click', () => download('round-key.json', review.keyJson, 'application/json'));
+  key.addEventListener('click', () => {
+    try {
+      download('round-key.json', review.keyJson, 'application/json');
+      review.keySaved = true;
+    } catch (err) {
+      showError(err, 'The key was not saved');
+    }
+    showUnsaved();
+  });
   replaceChildren(
     box,
     el('p', { 'data-testid': 'round-summary', text: `Round ${m.round_id}: ${m.pairs} pairs (${m.drawn.map(([d, n]) => `${n} from ${d}`).join(', ')}).` }),
@@ -227,7 +299,7 @@ async function readRatings(fileList) {
   return added;
 }
 
-function drawImportPanel(panel, resultsPanel) {
+function drawImportPanel(panel, resultsPanel, showUnsaved) {
   const keyInput = el('input', { type: 'file', accept: '.json,application/json', class: 'visually-hidden', 'data-testid': 'import-key' });
   const keyLabel = el('label', { class: 'button button-quiet' }, 'Open a round key…', keyInput);
   const ratingsInput = el('input', { type: 'file', accept: '.csv,text/csv', multiple: true, class: 'visually-hidden', 'data-testid': 'import-ratings' });
@@ -263,23 +335,40 @@ function drawImportPanel(panel, resultsPanel) {
     refresh();
     if (!review.keyJson || !review.files.length) {
       review.merged = null;
-      drawResults(resultsPanel);
+      drawResults(resultsPanel, showUnsaved);
       return;
     }
     clearError();
+    // Only the latest merge may show: an earlier one can answer later.
+    mergeTurn += 1;
+    const mine = mergeTurn;
+    const inputs = mergeInputs();
+    const upload = { upload: { key_json: review.keyJson, files: review.files, params: params() } };
     try {
-      review.merged = await plain('review_merge', { upload: { key_json: review.keyJson, files: review.files, params: params() } });
+      let merged;
+      try {
+        merged = await plain('review_merge', upload);
+      } catch (err) {
+        // The worker died under the call and a fresh one took its place;
+        // everything the merge needs is here, so ask the fresh one.
+        if (err?.kind !== 'internal') throw err;
+        merged = await plain('review_merge', upload);
+      }
+      if (mine !== mergeTurn) return;
+      review.merged = merged;
+      review.mergedFrom = inputs;
     } catch (err) {
+      if (mine !== mergeTurn) return;
       review.merged = null;
       if (err?.kind !== 'cancelled') showError(err, 'The ratings could not be merged', 'Check that the key belongs to the round the packets came from.');
     }
-    drawResults(resultsPanel);
+    drawResults(resultsPanel, showUnsaved);
   }
 
   keyInput.addEventListener('change', async () => {
     const f = keyInput.files?.[0];
     keyInput.value = '';
-    if (!f) return;
+    if (!f || !mayDropKey()) return;
     review.keyJson = await f.text();
     review.keyName = f.name;
     review.made = null;
@@ -303,9 +392,10 @@ function drawImportPanel(panel, resultsPanel) {
     zone.classList.remove('is-over');
     const files = [...(e.dataTransfer?.files ?? [])];
     const keys = files.filter((f) => /\.json$/i.test(f.name));
-    if (keys.length) {
+    if (keys.length && mayDropKey()) {
       review.keyJson = await keys[0].text();
       review.keyName = keys[0].name;
+      review.made = null;
     }
     await readRatings(files.filter((f) => !/\.json$/i.test(f.name)));
     await merge();
@@ -379,8 +469,9 @@ function agreementTable(ag, level) {
   return table('agreement-table', `Agreement between reviewers (Cohen 1968; Krippendorff 2004; Shrout & Fleiss 1979), ${level} intervals`, ['Statistic', 'Value', `${level} interval`, 'Pairs'], rows);
 }
 
-function drawResults(panel) {
+function drawResults(panel, showUnsaved) {
   const m = review.merged;
+  showUnsaved();
   if (!m) {
     replaceChildren(panel);
     return;
@@ -442,6 +533,40 @@ function drawResults(panel) {
     }
     if (c.cautions?.length) parts.push(el('aside', { class: 'caution', role: 'note' }, c.cautions.map((w) => el('p', { text: w }))));
   }
+  if (r) {
+    const save = el('button', { type: 'button', class: 'button', 'data-testid': 'save-review', text: 'Save the results (JSON)' });
+    save.addEventListener('click', () => {
+      try {
+        download(`review-${m.round_id}.json`, resultsJson(m), 'application/json');
+        reviewExported();
+      } catch (err) {
+        showError(err, 'The results were not saved');
+      }
+    });
+    parts.push(
+      el(
+        'div',
+        { class: 'field-row' },
+        save,
+        el('span', { class: 'hint', text: 'The merge problems, the agreement and the design comparison, as shown here. The report on the Export step carries them too.' }),
+      ),
+    );
+  }
   replaceChildren(panel, el('section', { class: 'panel' }, parts));
   if (r) showNotice(`Ratings merged: ${m.accepted} ratings of round ${m.round_id}.`);
+}
+
+/** The results file: what the screen shows, with where the ratings came from. */
+function resultsJson(m) {
+  const out = {
+    round_id: m.round_id,
+    pairs_in_round: m.pairs_in_round,
+    reviewers: m.reviewers,
+    accepted: m.accepted,
+    files: review.files.map((f) => f.name),
+    issues: m.issues,
+    results: m.results,
+  };
+  // Infinite and undefined numbers have no JSON form; null says "none".
+  return `${JSON.stringify(out, (k, v) => (typeof v === 'number' && !Number.isFinite(v) ? null : v), 2)}\n`;
 }

@@ -1,6 +1,7 @@
 //! `pairsight demo`: write the invented demo cohort, its study file and its
 //! known truth.
 
+use crate::io::write_atomic;
 use pairsight_core::demo::{generate, DemoParams, DEFAULT_PATIENTS, DEFAULT_SEED};
 use std::path::{Path, PathBuf};
 
@@ -20,8 +21,7 @@ pub struct DemoArgs {
 
 fn write(dir: &Path, name: &str, content: &str) -> Result<PathBuf, String> {
     let path = dir.join(name);
-    std::fs::write(&path, content)
-        .map_err(|e| format!("could not write {}: {e}", path.display()))?;
+    write_atomic(&path, content.as_bytes())?;
     Ok(path)
 }
 

@@ -2,6 +2,20 @@
 // browser's storage, and exports them as a ratings file. Every value from
 // the data reaches the page through textContent or a property, never as
 // markup. It makes no network request (and the page's policy forbids one).
+//
+// Nothing confirmed is lost: a rating is confirmed when its point is chosen
+// (key or click), and it is written to storage synchronously, before the
+// screen shows it as rated, so a reload, a closed tab or a crashed page
+// finds it again. A comment is written on every keystroke; a comment on a
+// pair with no rating yet is kept but is not a rating and is not exported.
+// Storage holds this reviewer's ratings, comments, position and the marks
+// setting, never the notes (they are in this file already).
+//
+// "Exported" means: the last ratings file saved held every rating and
+// comment as they are now (each change counts up `changed`; an export sets
+// `exported` to it). Until then, closing the page asks first. The browser
+// cannot tell the page whether the user then kept the file, so an export is
+// taken at its word.
 (function () {
   'use strict';
 
@@ -31,34 +45,61 @@
     return typeof v === 'number' && Math.floor(v) === v && v >= scale.min && v <= scale.max;
   }
 
+  function parse(text) {
+    var saved = null;
+    try { saved = JSON.parse(text || 'null'); } catch (e) { saved = null; }
+    return saved && typeof saved === 'object' ? saved : null;
+  }
+
+  function ratingsOf(saved) {
+    var out = {};
+    if (!saved.ratings || typeof saved.ratings !== 'object') return out;
+    Object.keys(saved.ratings).forEach(function (k) {
+      var r = saved.ratings[k];
+      if (!known[k] || !r || typeof r !== 'object') return;
+      out[k] = {
+        rating: validRating(r.rating) ? r.rating : null,
+        comment: typeof r.comment === 'string' ? r.comment : '',
+        time: typeof r.time === 'string' ? r.time : ''
+      };
+    });
+    return out;
+  }
+
   function load() {
     if (!store) return;
-    var saved = null;
-    try { saved = JSON.parse(store.getItem(storeKey) || 'null'); } catch (e) { saved = null; }
-    if (!saved || typeof saved !== 'object') return;
-    if (saved.ratings && typeof saved.ratings === 'object') {
-      Object.keys(saved.ratings).forEach(function (k) {
-        var r = saved.ratings[k];
-        if (!known[k] || !r || typeof r !== 'object') return;
-        state.ratings[k] = {
-          rating: validRating(r.rating) ? r.rating : null,
-          comment: typeof r.comment === 'string' ? r.comment : '',
-          time: typeof r.time === 'string' ? r.time : ''
-        };
-      });
-    }
+    var saved = parse(store.getItem(storeKey));
+    if (!saved) return;
+    state.ratings = ratingsOf(saved);
     if (typeof saved.at === 'number' && saved.at >= 0 && saved.at < n) state.at = Math.floor(saved.at);
     if (typeof saved.changed === 'number') state.changed = saved.changed;
     if (typeof saved.exported === 'number') state.exported = saved.exported;
     if (typeof saved.marks === 'boolean') state.marks = saved.marks;
   }
 
+  // The same packet open in a second tab writes the same storage: take its
+  // ratings as they arrive, so neither tab later overwrites the other's.
+  // Position and the marks setting stay this tab's own.
+  function adopt(text) {
+    var saved = parse(text);
+    if (!saved) return;
+    state.ratings = ratingsOf(saved);
+    if (typeof saved.changed === 'number') state.changed = Math.max(state.changed, saved.changed);
+    if (typeof saved.exported === 'number') state.exported = saved.exported;
+    render();
+  }
+
+  // Synchronous: when this returns true the change is in storage. False
+  // means it could not be kept, and the reviewer is told at once.
+  var unsavedWarning = 'Your ratings could not be kept in this browser. Export them now so nothing is lost.';
   function save() {
-    if (!store) return;
+    if (!store) return false;
     try {
       store.setItem(storeKey, JSON.stringify(state));
+      return true;
     } catch (e) {
-      say('Ratings could not be kept in this browser. Export them now so nothing is lost.');
+      say(unsavedWarning);
+      return false;
     }
   }
 
@@ -150,9 +191,13 @@
     e.rating = v;
     e.time = now();
     state.changed += 1;
-    save();
+    var kept = save();
     render();
     var left = n - ratedCount();
+    if (store && !kept) {
+      say('Rated ' + v + ', but ' + unsavedWarning.charAt(0).toLowerCase() + unsavedWarning.slice(1));
+      return;
+    }
     say(left === 0
       ? 'All ' + n + ' pairs are rated. Export your ratings and send the file to the study team.'
       : 'Rated ' + v + '. ' + left + ' to go.');
@@ -269,6 +314,9 @@
       return '';
     }
     return undefined;
+  });
+  window.addEventListener('storage', function (ev) {
+    if (ev.key === storeKey && ev.storageArea === store && n > 0) adopt(ev.newValue);
   });
   $('app').hidden = false;
   if (n === 0) {
