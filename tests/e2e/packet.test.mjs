@@ -52,7 +52,7 @@ async function closeLikeAPerson(page) {
 /** Export the ratings and save the downloaded file to `dest`. */
 async function exportTo(page, dest) {
   const [download] = await Promise.all([page.waitForEvent('download'), page.locator('#export').click()]);
-  assert.match(download.suggestedFilename(), /^ratings-[a-z]+-R-[0-9A-Z]{10}\.csv$/);
+  assert.match(download.suggestedFilename(), /^ratings-[a-z0-9._-]+-R-[0-9A-Z]{10}\.csv$/);
   await download.saveAs(dest);
   return readFile(dest, 'utf8');
 }
@@ -111,22 +111,22 @@ async function review(t, dir, name, ratingOf) {
 
 test('two reviewers rate their packets across two sittings and the analyst merges the ratings', async (t) => {
   const dir = await scratch(t);
-  drawRound(dir, ['ana', 'ben']);
-  const nA = await review(t, dir, 'ana', (i) => (i % 5) + 1);
-  const nB = await review(t, dir, 'ben', (i) => ((i + 1) % 5) + 1);
+  drawRound(dir, ['rev-a', 'rev-b']);
+  const nA = await review(t, dir, 'rev-a', (i) => (i % 5) + 1);
+  const nB = await review(t, dir, 'rev-b', (i) => ((i + 1) % 5) + 1);
   assert.equal(nA, nB);
   const r = pairsight(['agree', '--key', path.join(dir, 'round-key.json'),
-    path.join(dir, 'ratings-ana.csv'), path.join(dir, 'ratings-ben.csv')]);
+    path.join(dir, 'ratings-rev-a.csv'), path.join(dir, 'ratings-rev-b.csv')]);
   assert.equal(r.status, 0, r.stderr);
-  assert.match(r.stdout, /kappa, quadratic weights: ana and ben/);
+  assert.match(r.stdout, /kappa, quadratic weights: rev-a and rev-b/);
   assert.match(r.stdout, /Rated similarity per design/);
   const results = JSON.parse(await readFile(path.join(dir, 'agreement.json'), 'utf8'));
   assert.equal(results.ratings, 2 * nA);
   assert.equal(results.agreement.pairs_complete, nA);
-  assert.deepEqual(results.agreement.reviewers, ['ana', 'ben']);
+  assert.deepEqual(results.agreement.reviewers, ['rev-a', 'rev-b']);
   // Ratings exported from a browser carry comments back intact.
-  const back = await readFile(path.join(dir, 'ratings-ana.csv'), 'utf8');
-  assert.ok(back.includes('ana: both frail, one lives alone'));
+  const back = await readFile(path.join(dir, 'ratings-rev-a.csv'), 'utf8');
+  assert.ok(back.includes('rev-a: both frail, one lives alone'));
 });
 
 test('markup in notes, labels and column names shows literally and never runs', async (t) => {
