@@ -12,7 +12,7 @@ import { test } from 'node:test';
 import assert from 'node:assert/strict';
 import { readFile } from 'node:fs/promises';
 import path from 'node:path';
-import { FIXTURES, assertQuiet, openApp, screenshot } from './support.mjs';
+import { FIXTURES, assertQuiet, csvRows, formulaCells, openApp, screenshot } from './support.mjs';
 import { APP_URL, downloaded, step } from './flow.mjs';
 
 const BAD = path.join(FIXTURES, 'bad');
@@ -183,56 +183,6 @@ async function generate(spec) {
     throw new Error(`unknown generated input ${spec}`);
   }
   return { name: `${spec.replace(':', '_')}.csv`, mimeType: 'text/csv', buffer: Buffer.from(out.join(''), 'utf8') };
-}
-
-// ------------------------------------------------------------ reading CSV
-
-/** Cells of a CSV text (RFC 4180 quoting), row by row. */
-function csvRows(text) {
-  const rows = [];
-  let row = [];
-  let cell = '';
-  let quoted = false;
-  for (let i = 0; i < text.length; i += 1) {
-    const c = text[i];
-    if (quoted) {
-      if (c === '"' && text[i + 1] === '"') {
-        cell += '"';
-        i += 1;
-      } else if (c === '"') quoted = false;
-      else cell += c;
-    } else if (c === '"') quoted = true;
-    else if (c === ',') {
-      row.push(cell);
-      cell = '';
-    } else if (c === '\n' || c === '\r') {
-      if (c === '\r' && text[i + 1] === '\n') i += 1;
-      row.push(cell);
-      rows.push(row);
-      row = [];
-      cell = '';
-    } else cell += c;
-  }
-  if (cell !== '' || row.length) {
-    row.push(cell);
-    rows.push(row);
-  }
-  return rows;
-}
-
-/**
- * Cells a spreadsheet would run as a formula (OWASP, "CSV Injection"): a
- * text cell starting with =, +, @, tab or carriage return, or with - unless
- * it is a number. The same rule as the command-line test's.
- */
-export function formulaCells(text) {
-  return csvRows(text)
-    .flat()
-    .filter((cell) => {
-      const c = cell[0];
-      if (c === '=' || c === '+' || c === '@' || c === '\t' || c === '\r') return true;
-      return c === '-' && !Number.isFinite(Number(cell));
-    });
 }
 
 /** Follow a dotted path (`a.b.0.c`) into JSON. */
