@@ -235,12 +235,18 @@ const BANNER = '[data-testid="error-banner"]:not([hidden])';
 async function openCohort(page, input) {
   await step(page, 'data');
   const name = typeof input === 'string' ? path.basename(input) : input.name;
+  // What is on screen now belongs to the last case (which may have opened
+  // a file of the same name): mark it, and wait for unmarked content.
+  await page.evaluate(() => {
+    for (const n of document.querySelectorAll('[data-testid="summary-file"], [data-testid="error-banner"] > *')) n.dataset.stale = 'true';
+  });
   await page.getByTestId('file-input').setInputFiles(input);
   const handle = await page.waitForFunction((n) => {
     const banner = document.querySelector('[data-testid="error-banner"]');
-    if (!banner.hidden && banner.textContent.includes(`“${n}”`)) return 'banner';
+    const title = banner.querySelector('.banner-title:not([data-stale])');
+    if (!banner.hidden && title?.textContent.includes(`“${n}”`)) return 'banner';
     const summary = document.querySelector('[data-testid="summary"]');
-    const file = document.querySelector('[data-testid="summary-file"]');
+    const file = document.querySelector('[data-testid="summary-file"]:not([data-stale])');
     if (!summary.hidden && file?.textContent === n && document.querySelector('[data-testid="progress"]').hidden) return 'summary';
     return false;
   }, name, { timeout: 120_000 });
@@ -347,6 +353,7 @@ async function fileFacts(page) {
 async function checkBanner(page, c, stage) {
   const p = [];
   const text = await bannerText(page);
+  if (!(await page.getByTestId('error-banner').isVisible())) return ['the error banner went away before it could be read'];
   for (const m of c.message) {
     if (!fold(text).includes(fold(pageWording(m)))) p.push(`banner (${stage}) lacks ${JSON.stringify(m)}: ${JSON.stringify(text)}`);
   }
