@@ -105,7 +105,7 @@ export function mountDesigns(screen, go) {
           ...s.left_out.map((l) => note('warn', `Row ${l.row} left out: ${l.reason}`)),
           ...s.fills.map((f) => note('warn', `Column “${f.column}”: ${formatCount(f.cells)} missing cells filled (${f.method}).`)),
           note(s.score_model.converged ? 'ok' : 'warn', `Score model: ${FIT_METHODS[s.score_model.method] ?? s.score_model.method}, ${s.score_model.converged ? `converged in ${s.score_model.iterations} steps` : 'did not converge'}.`),
-          ...s.score_model.warnings.map((w) => note('warn', `Score model: ${w}`)),
+          ...s.score_model.warnings.map((w) => note('warn', /^score model\b/i.test(w) ? `Score model${w.slice('score model'.length)}` : `Score model: ${w}`)),
           s.undefined_smd.length
             ? note('warn', `SMD undefined (NA; no spread in the unmatched sample): ${s.undefined_smd.join(', ')}.`)
             : null,
