@@ -20,7 +20,10 @@ export function describeLocation(error) {
 export function showError(error, title, next = defaultNextStep(error)) {
   const banner = byTestId('error-banner');
   const where = describeLocation(error);
-  const reason = where ? error.detail ?? error.message : error?.message ?? String(error);
+  // The core's `message` starts with its kind ("data: ", "study file (key
+  // ...): "), which is for logs; `detail` is the sentence a reader needs,
+  // and the location, when known, has its own line above it.
+  const reason = error?.detail || error?.message || String(error);
   replaceChildren(
     banner,
     el('p', { class: 'banner-title', text: title }),

@@ -58,3 +58,78 @@ export async function openDemo(t) {
   return opened;
 }
 
+
+/**
+ * Record every dialog and every call a script payload would make: the
+ * page's `dialog` event, and (before any script of the page runs) stand-ins
+ * for alert, confirm, prompt, print and open, plus a `__pwned` global
+ * whose setter records a write. `calls()` returns what was recorded.
+ */
+export async function trapPayloads(page) {
+  const dialogs = [];
+  page.on('dialog', async (d) => {
+    dialogs.push(`${d.type()}: ${d.message()}`);
+    await d.dismiss().catch(() => {});
+  });
+  await page.addInitScript(() => {
+    const calls = [];
+    Object.defineProperty(window, '__payloadCalls', { value: calls });
+    for (const name of ['alert', 'confirm', 'prompt', 'print', 'open']) {
+      Object.defineProperty(window, name, {
+        value: (...args) => {
+          calls.push(`${name}(${args.map(String).join(', ')})`);
+          return null;
+        },
+      });
+    }
+    Object.defineProperty(window, '__pwned', {
+      get: () => undefined,
+      set: (v) => calls.push(`__pwned = ${String(v)}`),
+    });
+  });
+  return {
+    dialogs,
+    calls: (p = page) => p.evaluate(() => [...(window.__payloadCalls ?? ['the trap is missing'])]),
+  };
+}
+
+/**
+ * Elements and attributes only a payload could have put in the page: none
+ * of them belongs to the app (charts are canvases, text is text).
+ */
+export function strayMarkup(page) {
+  return page.evaluate(() => {
+    const q = (s) => document.querySelectorAll(s).length;
+    const eventAttributes = [...document.querySelectorAll('*')].flatMap((e) =>
+      [...e.attributes].filter((a) => a.name.startsWith('on')).map((a) => `${e.tagName.toLowerCase()}[${a.name}]`),
+    );
+    return {
+      img: q('img'),
+      svg: q('svg'),
+      iframe: q('iframe, frame, object, embed'),
+      base: q('base'),
+      refresh: q('meta[http-equiv="refresh" i]'),
+      httpEquiv: q('meta[http-equiv]'),
+      // The app's own link is its empty icon (so the browser asks for none).
+      link: q('link:not([rel="icon"][href="data:,"])'),
+      scripts: document.scripts.length,
+      styles: q('style'),
+      form: q('form, input[type="submit"]'),
+      math: q('math'),
+      bold: q('b'),
+      italic: q('i'),
+      scriptLinks: q('a[href^="javascript:" i], [href^="javascript:" i], [src^="javascript:" i]'),
+      bodies: q('body'),
+      eventAttributes,
+    };
+  });
+}
+
+/**
+ * What `strayMarkup` must find in the single-file app: its own policy meta,
+ * its three script blocks (code, worker text, wasm), one style, one body.
+ */
+export const NO_STRAY_MARKUP = {
+  img: 0, svg: 0, iframe: 0, base: 0, refresh: 0, httpEquiv: 1, link: 0, scripts: 3, styles: 1, form: 0, math: 0, bold: 0, italic: 0,
+  scriptLinks: 0, bodies: 1, eventAttributes: [],
+};

@@ -136,3 +136,51 @@ export async function startServer(t) {
     child.on('exit', (code) => reject(new Error(`server exited (${code}): ${seen}`)));
   });
 }
+
+/** Cells of a CSV text (RFC 4180 quoting), row by row. */
+export function csvRows(text) {
+  const rows = [];
+  let row = [];
+  let cell = '';
+  let quoted = false;
+  for (let i = 0; i < text.length; i += 1) {
+    const c = text[i];
+    if (quoted) {
+      if (c === '"' && text[i + 1] === '"') {
+        cell += '"';
+        i += 1;
+      } else if (c === '"') quoted = false;
+      else cell += c;
+    } else if (c === '"') quoted = true;
+    else if (c === ',') {
+      row.push(cell);
+      cell = '';
+    } else if (c === '\n' || c === '\r') {
+      if (c === '\r' && text[i + 1] === '\n') i += 1;
+      row.push(cell);
+      rows.push(row);
+      row = [];
+      cell = '';
+    } else cell += c;
+  }
+  if (cell !== '' || row.length) {
+    row.push(cell);
+    rows.push(row);
+  }
+  return rows;
+}
+
+/**
+ * Cells a spreadsheet would run as a formula (OWASP, "CSV Injection"): a
+ * text cell starting with =, +, @, tab or carriage return, or with - unless
+ * it is a number. The rule of the command line's bad-input test.
+ */
+export function formulaCells(text) {
+  return csvRows(text)
+    .flat()
+    .filter((cell) => {
+      const c = cell[0];
+      if (c === '=' || c === '+' || c === '@' || c === '\t' || c === '\r') return true;
+      return c === '-' && !Number.isFinite(Number(cell));
+    });
+}

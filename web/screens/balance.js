@@ -122,7 +122,12 @@ export function mountBalance(screen) {
       return el('th', { scope: 'col', 'aria-sort': active ? (sort.dir < 0 ? 'descending' : 'ascending') : null, ...attrs }, button);
     };
     const fmt = (v, digits = 3) => (v === null || v === undefined || !Number.isFinite(v) ? '—' : v.toFixed(digits));
+    // An SMD the core could not define (no spread in the unmatched sample)
+    // reads NA, as in balance.csv: a dash would look like "not computed".
     const smd = (v) => {
+      if (v === null || v === undefined) {
+        return el('td', { class: 'num muted', text: 'NA', title: 'undefined: this term does not vary in the unmatched sample' });
+      }
       const text = fmt(v);
       const over = v !== null && v !== undefined && Math.abs(v) > 0.1;
       return el('td', { class: `num ${over ? 'over' : ''}`, text: over ? `${text} ▲` : text, title: over ? '|SMD| above 0.1' : null });

@@ -248,6 +248,11 @@ function drawSummary(section, name, s, markers) {
       s.columns === 1 ? ' column' : ' columns',
     ),
     facts,
+    // How the file was read where it matters (encoding fallback, decimal
+    // commas, a dropped empty last column): the reader must see it.
+    s.notices?.length
+      ? el('ul', { class: 'problems', 'data-testid': 'read-notices' }, s.notices.map((n) => el('li', { class: 'warn', text: n })))
+      : null,
     el('div', { class: 'table-wrap' }, table),
     notes,
   );

@@ -18,6 +18,16 @@ const ALGORITHMS = [
   ['greedy', 'greedy: nearest available, largest score first'],
 ];
 
+const FIT_METHODS = {
+  maximum_likelihood: 'logistic regression by maximum likelihood',
+  firth: 'Firth-type penalized logistic regression (Firth 1993)',
+  ridge: 'ridge-penalized logistic regression',
+};
+
+function note(cls, text) {
+  return el('li', { class: cls, text });
+}
+
 /** Candidate score terms: covariates, then note features. */
 function candidateTerms() {
   const c = store.study.columns;
@@ -34,6 +44,7 @@ export function mountDesigns(screen, go) {
   }
   const list = el('div', { class: 'designs', 'data-testid': 'design-list' });
   const results = el('table', { class: 'columns results', 'data-testid': 'design-results' });
+  const notes = el('section', { class: 'run-notes-list', 'aria-label': 'What each run did' });
 
   function save() {
     saveStudy();
@@ -77,6 +88,37 @@ export function mountDesigns(screen, go) {
       );
     });
     replaceChildren(results, el('caption', { text: 'One line per design: the latest run.' }), head, el('tbody', {}, rows));
+    drawRunNotes();
+  }
+
+  // What each run decided on the user's behalf: rows left out, cells
+  // filled, how the score model was fitted and what it warned about,
+  // balance terms without an SMD, parts skipped. The command line writes
+  // the same record to summary.json; here it must be seen, not only saved.
+  function drawRunNotes() {
+    const blocks = store.study.designs
+      .filter((d) => store.runs.has(d.name))
+      .map((d) => {
+        const s = store.runs.get(d.name).summary;
+        const items = [
+          note('ok', `${formatCount(s.rows_used)} of ${formatCount(s.rows_read)} rows used: ${formatCount(s.treated)} treated, ${formatCount(s.comparison)} comparison.`),
+          ...s.left_out.map((l) => note('warn', `Row ${l.row} left out: ${l.reason}`)),
+          ...s.fills.map((f) => note('warn', `Column “${f.column}”: ${formatCount(f.cells)} missing cells filled (${f.method}).`)),
+          note(s.score_model.converged ? 'ok' : 'warn', `Score model: ${FIT_METHODS[s.score_model.method] ?? s.score_model.method}, ${s.score_model.converged ? `converged in ${s.score_model.iterations} steps` : 'did not converge'}.`),
+          ...s.score_model.warnings.map((w) => note('warn', /^score model\b/i.test(w) ? `Score model${w.slice('score model'.length)}` : `Score model: ${w}`)),
+          s.undefined_smd.length
+            ? note('warn', `SMD undefined (NA; no spread in the unmatched sample): ${s.undefined_smd.join(', ')}.`)
+            : null,
+          ...(s.skipped ?? []).map((w) => note('warn', `Not computed: ${w}`)),
+        ];
+        return el(
+          'div',
+          { class: 'run-notes', 'data-testid': 'run-notes', 'data-design': d.name },
+          el('h3', { text: `What the run of ${d.name} did` }),
+          el('ul', { class: 'problems' }, items),
+        );
+      });
+    replaceChildren(notes, blocks);
   }
 
   function designCard(d, i) {
@@ -224,12 +266,22 @@ export function mountDesigns(screen, go) {
 
   async function run(names) {
     clearError();
+    if (!names.length) {
+      // A study file may come without designs (the command line refuses
+      // one); here the button must still answer.
+      const message = 'the study has no [[designs]] yet; add one with “New design”, or import a study file that has some';
+      showError({ kind: 'study', key: 'designs', message, detail: message }, 'There is no design to run', 'Add a design, then run it.');
+      return;
+    }
     try {
       await runDesigns(names);
       for (const n of names) if (!store.compare.includes(n) && store.compare.length < 6) store.compare.push(n);
       drawResults();
     } catch (err) {
-      if (err?.kind !== 'cancelled') showError(err, 'A design could not be run', 'Change the setting named in the message and run again.');
+      // A fault found in the cohort only now (a column is used for the first
+      // time) belongs to the file, and the title says which file.
+      if (err?.kind === 'data') showError(err, `A design could not be run on “${store.file?.name ?? 'the cohort'}”`, 'Correct the file and open it again, or change the roles or settings that use this column.');
+      else if (err?.kind !== 'cancelled') showError(err, 'A design could not be run', 'Change the setting named in the message and run again.');
       drawResults();
     }
   }
@@ -257,6 +309,7 @@ export function mountDesigns(screen, go) {
     }),
     el('div', { class: 'field-row sticky-actions' }, add, runAll, toBalance),
     results,
+    notes,
     list,
   );
   draw();

@@ -9,6 +9,21 @@ import { withSession, plain } from '../work.js';
 import { review, reviewUpload, reviewExported } from './review.js';
 import { saveFile as download } from '../saving.js';
 
+/**
+ * A study file's text. TOML files are UTF-8 (TOML v1.0.0); `File.text()`
+ * would turn other bytes into U+FFFD silently and import a study whose
+ * names no longer match the cohort's, so they are refused, as the command
+ * line refuses them.
+ */
+export function readUtf8(buffer, name) {
+  try {
+    return new TextDecoder('utf-8', { fatal: true }).decode(buffer);
+  } catch {
+    const message = `${name} is not UTF-8 text; save the study file as UTF-8 and import it again`;
+    throw { kind: 'study', message, detail: message, row: null, column: null, key: null };
+  }
+}
+
 /** Draw the step into `screen`. */
 export function mountExport(screen, go) {
   const ran = (store.study?.designs ?? []).map((d) => d.name).filter((n) => store.runs.has(n));
@@ -79,7 +94,7 @@ export function mountExport(screen, go) {
     if (!file) return;
     clearError();
     try {
-      const text = await file.text();
+      const text = readUtf8(await file.arrayBuffer(), file.name);
       const study = await plain('study_from_toml', { text });
       if (!store.file) {
         showError({ kind: 'param', message: 'Open the cohort file on the Data step first; the study file holds settings, not data.' }, 'No cohort is open');
