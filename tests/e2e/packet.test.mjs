@@ -67,6 +67,12 @@ async function review(t, dir, name, ratingOf) {
   assert.ok(n >= 4, `${n} pairs`);
   assert.equal(await progress(page), `0 of ${n} rated`);
   assert.equal(await page.locator('#position').textContent(), `Pair 1 of ${n}`);
+  // Nothing rated: no file of only the header is exported.
+  let downloads = 0;
+  page.on('download', () => (downloads += 1));
+  await page.locator('#export').click();
+  assert.match(await page.locator('#status').textContent(), /No pair is rated yet/);
+  assert.equal(downloads, 0);
 
   // First sitting: half the pairs by keyboard, then close the tab.
   const half = Math.floor(n / 2);

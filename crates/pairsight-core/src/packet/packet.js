@@ -246,6 +246,11 @@
 
   function exportRatings() {
     var csv = ratingsCsv();
+    // A file of only the header would reach the study team as "no ratings".
+    if (csv.count === 0) {
+      say('No pair is rated yet, so there is nothing to export: rate at least one pair (keys ' + scale.min + ' to ' + scale.max + ', or the buttons), then export.');
+      return;
+    }
     var blob = new Blob([csv.text], { type: 'text/csv;charset=utf-8' });
     var url = URL.createObjectURL(blob);
     var a = document.createElement('a');

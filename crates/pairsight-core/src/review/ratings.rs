@@ -362,8 +362,10 @@ pub fn merge_ratings(round: &Round, files: &[RatingsFile]) -> MergedRatings {
             }
         }
         let mut foreign: BTreeMap<String, (usize, usize)> = BTreeMap::new();
+        let mut rows_read = 0;
         for (i, rec) in records.enumerate() {
             let row = i + 2;
+            rows_read += 1;
             let rec = match rec {
                 Ok(r) => r,
                 Err(e) => {
@@ -521,6 +523,14 @@ pub fn merge_ratings(round: &Round, files: &[RatingsFile]) -> MergedRatings {
                 }
             }
         }
+        if rows_read == 0 {
+            issues.push(issue(
+                None,
+                None,
+                Severity::Warning,
+                "the file holds no ratings, only the header; it was probably exported before any pair was rated: ask the reviewer to export again".into(),
+            ));
+        }
         for (id, (first_row, n)) in foreign {
             issues.push(issue(
                 Some(first_row),
@@ -671,6 +681,23 @@ mod tests {
         assert!(
             w[0].to_string().contains("more than once") && w[0].to_string().contains("early.csv")
         );
+        assert!(!m.has_errors());
+    }
+
+    #[test]
+    fn a_file_of_only_the_header_is_named() {
+        let r = round();
+        let a = write_ratings_csv(&rows(&r, "A", 1)).unwrap();
+        let empty = write_ratings_csv(&[]).unwrap();
+        let m = merge_ratings(&r, &[file("a.csv", &a), file("empty.csv", &empty)]);
+        assert_eq!(m.ratings.len(), r.items.len());
+        assert_eq!(m.issues.len(), 1, "{:?}", m.issues);
+        let i = &m.issues[0];
+        assert_eq!(
+            (i.severity, i.file.as_str()),
+            (Severity::Warning, "empty.csv")
+        );
+        assert!(i.message.contains("no ratings"), "{}", i.message);
         assert!(!m.has_errors());
     }
 
