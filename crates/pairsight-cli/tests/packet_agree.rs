@@ -224,7 +224,10 @@ fn packets_refuse_unblinding_fields_and_bad_reviewer_labels() {
     assert!(err.contains("agee"), "{err}");
     let err = bad_input(&packets(&dir, &["--reviewers", "an a"]));
     assert!(err.contains("an a"), "{err}");
-    let err = bad_input(&packets(&dir, &["--reviewers", "rev-a", "--designs", "nope"]));
+    let err = bad_input(&packets(
+        &dir,
+        &["--reviewers", "rev-a", "--designs", "nope"],
+    ));
     assert!(
         err.contains("nope") && err.contains("small.study.toml"),
         "{err}"
