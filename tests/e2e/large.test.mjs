@@ -12,7 +12,7 @@ import { mkdtemp, open, rm, truncate, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { pathToFileURL } from 'node:url';
-import { SINGLE_FILE, assertQuiet, fixture, openApp, pickFile, screenshot } from './support.mjs';
+import { SINGLE_FILE, assertQuiet, fixture, openApp, pickFile, screenshot, seededRandom } from './support.mjs';
 
 const APP_URL = pathToFileURL(SINGLE_FILE).href;
 const TARGET_BYTES = 200_000_000;
@@ -29,14 +29,7 @@ const memoryBound = (size) => 2 * size + 64 * 2 ** 20;
  * `file`, in batches, from a fixed seed; resolves with its rows and size.
  */
 async function writeLargeCohort(file, target, seed = 2026) {
-  let s = seed >>> 0;
-  const rand = () => {
-    // mulberry32, a public-domain 32-bit generator.
-    s = (s + 0x6d2b79f5) | 0;
-    let t = Math.imul(s ^ (s >>> 15), s | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
+  const rand = seededRandom(seed);
   const pick = (list) => list[Math.floor(rand() * list.length)];
   const sentences = [
     'Lives alone in a first-floor flat.',

@@ -9,20 +9,13 @@ import { mkdtemp, writeFile, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { pathToFileURL } from 'node:url';
-import { SINGLE_FILE, assertQuiet, openApp, pickFile } from './support.mjs';
+import { SINGLE_FILE, assertQuiet, openApp, pickFile, seededRandom } from './support.mjs';
 
 const APP_URL = pathToFileURL(SINGLE_FILE).href;
 
 /** An invented cohort of `n` patients (no real data): CSV text. */
 function inventCohort(n, seed = 7) {
-  let s = seed >>> 0;
-  const rand = () => {
-    // mulberry32, a public-domain 32-bit generator.
-    s = (s + 0x6d2b79f5) | 0;
-    let t = Math.imul(s ^ (s >>> 15), s | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
+  const rand = seededRandom(seed);
   const phrases = ['lives alone', 'uses a walking frame', 'recent fall', 'denies falls', 'no chest pain', 'family visiting daily', 'poor sleep', 'bloods sent', 'obs stable overnight'];
   const rows = ['patient_id,early_plan,age,sex,ward,prior_admits,creatinine,readmit_30d,length_of_stay,admission_note'];
   for (let i = 0; i < n; i += 1) {

@@ -30,6 +30,20 @@ export const CHROMIUM_FLAGS = [
   '--disable-sync',
 ];
 
+/**
+ * A seeded generator of numbers in [0, 1) for invented test data: mulberry32,
+ * a public-domain 32-bit generator.
+ */
+export function seededRandom(seed) {
+  let s = seed >>> 0;
+  return () => {
+    s = (s + 0x6d2b79f5) | 0;
+    let t = Math.imul(s ^ (s >>> 15), s | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
+
 /** The fixture file at `name`. */
 export const fixture = (name) => path.join(FIXTURES, name);
 

@@ -51,16 +51,7 @@ fn note_aware_design(study: &str) -> String {
 /// Matched readmission estimate and interval, and each concept's SMD after
 /// matching, of one design run by `pairsight match`.
 fn run_design(data: &Path, study: &Path, out: &Path, design: &str) -> (f64, f64, f64, Vec<f64>) {
-    ok(&pairsight([
-        "match".as_ref(),
-        data.as_os_str(),
-        "--study".as_ref(),
-        study.as_os_str(),
-        "--out".as_ref(),
-        out.as_os_str(),
-        "--design".as_ref(),
-        design.as_ref(),
-    ]));
+    ok(&pairsight_match(data, study, out, &["--design", design]));
     let effect: serde_json::Value = serde_json::from_str(
         &std::fs::read_to_string(out.join(design).join("effect.json")).unwrap(),
     )

@@ -7,7 +7,7 @@
 
 mod common;
 
-use common::{bad_input, fresh, ok, pairsight, small};
+use common::{bad_input, fresh, ok, pairsight, pairsight_match, small};
 use std::os::unix::process::CommandExt as _;
 use std::path::Path;
 use std::process::{Command, Output};
@@ -123,28 +123,17 @@ fn a_failure_after_some_files_leaves_only_whole_files() {
     let out = fresh("whole-match");
     // The second design's folder cannot be made: a file stands in its place.
     std::fs::write(out.join("with-notes"), "in the way").unwrap();
-    let r = pairsight([
-        "match".as_ref(),
-        data.as_os_str(),
-        "--study".as_ref(),
-        study.as_os_str(),
-        "--out".as_ref(),
-        out.as_os_str(),
-    ]);
+    let r = pairsight_match(&data, &study, &out, &[]);
     let err = bad_input(&r);
     assert!(err.contains("with-notes"), "{err}");
     // The first design's files are each complete, as a run of it alone writes them.
     let alone = fresh("whole-match-alone");
-    ok(&pairsight([
-        "match".as_ref(),
-        data.as_os_str(),
-        "--study".as_ref(),
-        study.as_os_str(),
-        "--out".as_ref(),
-        alone.as_os_str(),
-        "--design".as_ref(),
-        "structured".as_ref(),
-    ]));
+    ok(&pairsight_match(
+        &data,
+        &study,
+        &alone,
+        &["--design", "structured"],
+    ));
     let got = entries(&out.join("structured"));
     assert_eq!(got, entries(&alone.join("structured")));
     assert!(got.iter().any(|n| n == "matched.csv"), "{got:?}");

@@ -36,6 +36,20 @@ where
         .expect("the pairsight binary runs")
 }
 
+/// Run `pairsight match DATA --study STUDY --out OUT`, then `extra`.
+pub fn pairsight_match(data: &Path, study: &Path, out: &Path, extra: &[&str]) -> Output {
+    let mut args: Vec<&std::ffi::OsStr> = vec![
+        "match".as_ref(),
+        data.as_os_str(),
+        "--study".as_ref(),
+        study.as_os_str(),
+        "--out".as_ref(),
+        out.as_os_str(),
+    ];
+    args.extend(extra.iter().map(std::ffi::OsStr::new));
+    pairsight(args)
+}
+
 /// Standard output as text.
 pub fn stdout(o: &Output) -> String {
     String::from_utf8_lossy(&o.stdout).into_owned()
