@@ -49,8 +49,17 @@ impl Elem for f64 {
     }
 }
 
+/// Columns of y summed at once in registers by [`mul`].
+const STRIP: usize = 20;
+
 /// y = A z, with z (cols x l) and y (rows x l) dense row-major; rows of y
 /// are computed independently, so blocks of them go to separate threads.
+///
+/// Each row of y is summed in strips of [`STRIP`] columns held in a local
+/// array (registers) across the row's nonzeros, rather than loading and
+/// storing the whole row of y for every nonzero. Every element is still the
+/// sum of the same products in the same order, so the result is the same to
+/// the bit.
 fn mul<T: Elem + Send + Sync>(
     indptr: &[usize],
     indices: &[u32],
@@ -62,12 +71,28 @@ fn mul<T: Elem + Send + Sync>(
     super::parallel::for_row_blocks(y, l, 512, |first, block| {
         for (k, yi) in block.chunks_exact_mut(l).enumerate() {
             let i = first + k;
-            yi.fill(T::default());
             let (a, b) = (indptr[i], indptr[i + 1]);
-            for (&j, &x) in indices[a..b].iter().zip(&values[a..b]) {
-                let zj = &z[j as usize * l..j as usize * l + l];
-                for (t, &s) in yi.iter_mut().zip(zj) {
-                    *t += x * s;
+            let (cols, xs) = (&indices[a..b], &values[a..b]);
+            let mut c0 = 0;
+            while c0 + STRIP <= l {
+                let mut acc = [T::default(); STRIP];
+                for (&j, &x) in cols.iter().zip(xs) {
+                    let at = j as usize * l + c0;
+                    for (t, &s) in acc.iter_mut().zip(&z[at..at + STRIP]) {
+                        *t += x * s;
+                    }
+                }
+                yi[c0..c0 + STRIP].copy_from_slice(&acc);
+                c0 += STRIP;
+            }
+            if c0 < l {
+                let tail = &mut yi[c0..];
+                tail.fill(T::default());
+                for (&j, &x) in cols.iter().zip(xs) {
+                    let at = j as usize * l + c0;
+                    for (t, &s) in tail.iter_mut().zip(&z[at..at + (l - c0)]) {
+                        *t += x * s;
+                    }
                 }
             }
         }
@@ -79,9 +104,8 @@ fn mul<T: Elem + Send + Sync>(
 /// precision; Stathopoulos & Wu 2002, SIAM J Sci Comput 23(6):2165-2182),
 /// falling back to Householder QR when the Gram matrix is too ill-conditioned
 /// for a safe Cholesky factor (for example a rank-deficient block).
-fn orthonormalize<T: Elem + Into<f64>>(buf: &mut [T], r: usize, l: usize) {
+fn orthonormalize<T: Elem + Into<f64> + Send + Sync>(buf: &mut [T], r: usize, l: usize) {
     let g = gram(buf, l);
-    let mut row = vec![0.0f64; l];
     let max_diag = (0..l).map(|a| g[(a, a)]).fold(0.0, f64::max);
     let chol = nalgebra::Cholesky::new(g).map(|c| c.l());
     let ok = chol.as_ref().is_some_and(|lower| {
@@ -94,20 +118,24 @@ fn orthonormalize<T: Elem + Into<f64>>(buf: &mut [T], r: usize, l: usize) {
                 .flat_map(|j| (0..l).map(move |i| (j, i)))
                 .map(|(j, i)| lower[(j, i)])
                 .collect();
-            // Each row q solves L q' = z' (forward substitution).
-            for chunk in buf.chunks_exact_mut(l) {
-                for (d, &x) in row.iter_mut().zip(chunk.iter()) {
-                    *d = x.into();
+            // Each row q solves L q' = z' (forward substitution); rows are
+            // independent, so blocks of them go to separate threads.
+            super::parallel::for_row_blocks(buf, l, 512, |_, block| {
+                let mut row = vec![0.0f64; l];
+                for chunk in block.chunks_exact_mut(l) {
+                    for (d, &x) in row.iter_mut().zip(chunk.iter()) {
+                        *d = x.into();
+                    }
+                    for j in 0..l {
+                        let lj = &lrows[j * l..j * l + j];
+                        let dot: f64 = lj.iter().zip(&row[..j]).map(|(a, b)| a * b).sum();
+                        row[j] = (row[j] - dot) / lrows[j * l + j];
+                    }
+                    for (d, &x) in chunk.iter_mut().zip(&row) {
+                        *d = T::of(x);
+                    }
                 }
-                for j in 0..l {
-                    let lj = &lrows[j * l..j * l + j];
-                    let dot: f64 = lj.iter().zip(&row[..j]).map(|(a, b)| a * b).sum();
-                    row[j] = (row[j] - dot) / lrows[j * l + j];
-                }
-                for (d, &x) in chunk.iter_mut().zip(&row) {
-                    *d = T::of(x);
-                }
-            }
+            });
         }
         _ => {
             let m = DMatrix::from_fn(r, l, |i, j| buf[i * l + j].into());
