@@ -48,3 +48,12 @@ export function byTestId(id, root = document) {
 export function formatCount(n) {
   return Number(n).toLocaleString();
 }
+
+/**
+ * `n` with `digits` decimals, without the minus sign of a value that rounds
+ * to zero ("-0.00" reads as a negative number to a person).
+ */
+export function formatFixed(n, digits) {
+  const text = Number(n).toFixed(digits);
+  return /^-0(\.0*)?$/.test(text) ? text.slice(1) : text;
+}

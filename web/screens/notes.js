@@ -2,7 +2,7 @@
 // negation), how notes become tokens, a preview of notes with their
 // mentions marked, and each note feature's distribution in the two groups.
 
-import { el, append, replaceChildren, formatCount } from '../dom.js';
+import { el, append, replaceChildren, formatCount, formatFixed } from '../dom.js';
 import { showError, clearError } from '../banner.js';
 import { store, changed, saveStudy } from '../store.js';
 import { prepare, withSession } from '../work.js';
@@ -141,18 +141,24 @@ export function mountNotes(screen) {
       replaceChildren(spread, el('p', { class: 'muted', text: 'Apply the concepts to compute the note features.' }));
       return;
     }
-    const fmt = (v) => (Number.isFinite(v) ? (Math.abs(v) >= 100 ? v.toFixed(0) : v.toFixed(2)) : '—');
+    const fmt = (v) => (Number.isFinite(v) ? formatFixed(v, Math.abs(v) >= 100 ? 0 : 2) : '—');
     const rows = p.note_features.map((f) =>
       el(
         'tr',
         { 'data-feature': f.name },
-        el('th', { scope: 'row', class: 'column-name', text: f.name }),
+        el('th', { scope: 'row', class: 'column-name feature-name', text: f.name }),
         el('td', { text: f.kind === 'concept' ? 'concept' : 'note measure' }),
         el('td', { class: 'num', text: fmt(f.treated.mean) }),
         el('td', { class: 'num', text: fmt(f.comparison.mean) }),
         el('td', {}, shareBars(f)),
-        el('td', { class: 'num five', text: f.treated.five.map(fmt).join(' · ') }),
-        el('td', { class: 'num five', text: f.comparison.five.map(fmt).join(' · ') }),
+        // Treated above comparison, as in the share column, so the table
+        // fits the panel without scrolling sideways.
+        el(
+          'td',
+          { class: 'num five' },
+          el('span', { class: 'five-row', text: `T ${f.treated.five.map(fmt).join(' · ')}` }),
+          el('span', { class: 'five-row', text: `C ${f.comparison.five.map(fmt).join(' · ')}` }),
+        ),
       ),
     );
     replaceChildren(
@@ -170,7 +176,7 @@ export function mountNotes(screen) {
           el(
             'tr',
             {},
-            ['Feature', 'Source', 'Mean, treated', 'Mean, comparison', 'Share not zero (T above, C below)', 'Five numbers, treated', 'Five numbers, comparison'].map((t) =>
+            ['Feature', 'Source', 'Mean, treated', 'Mean, comparison', 'Share not zero (T above, C below)', 'Five numbers (T above, C below)'].map((t) =>
               el('th', { scope: 'col', text: t }),
             ),
           ),
