@@ -170,6 +170,38 @@ pub struct EffectEstimate {
     pub seed: Option<u64>,
 }
 
+impl EffectEstimate {
+    /// An estimate of `kind` with its point value and level, before the
+    /// interval, the tests and the counts are filled in.
+    fn blank(kind: OutcomeKind, estimate: f64, level: f64) -> Self {
+        EffectEstimate {
+            kind,
+            measure: match kind {
+                OutcomeKind::Binary => "risk difference".into(),
+                OutcomeKind::Continuous => "mean difference".into(),
+            },
+            estimate,
+            ci_low: f64::NAN,
+            ci_high: f64::NAN,
+            level,
+            p_value: f64::NAN,
+            method: String::new(),
+            test: String::new(),
+            tests: Vec::new(),
+            n_sets: 0,
+            n_treated: 0,
+            n_comparison_units: 0,
+            mean_treated: f64::NAN,
+            mean_comparison: f64::NAN,
+            outcome_sd: f64::NAN,
+            risk_ratio: None,
+            pair_counts: None,
+            bootstrap: None,
+            seed: None,
+        }
+    }
+}
+
 fn check_level(level: f64) -> Result<()> {
     if !(level > 0.0 && level < 1.0) {
         return Err(Error::param(
@@ -422,29 +454,13 @@ pub fn estimate(
     let alpha = 1.0 - params.level;
     let est = stats::mean(&diffs);
     let mut out = EffectEstimate {
-        kind,
-        measure: match kind {
-            OutcomeKind::Binary => "risk difference".into(),
-            OutcomeKind::Continuous => "mean difference".into(),
-        },
-        estimate: est,
-        ci_low: f64::NAN,
-        ci_high: f64::NAN,
-        level: params.level,
-        p_value: f64::NAN,
-        method: String::new(),
-        test: String::new(),
-        tests: Vec::new(),
         n_sets: n,
         n_treated: n,
         n_comparison_units: control_values.len(),
         mean_treated,
         mean_comparison,
         outcome_sd,
-        risk_ratio: None,
-        pair_counts: None,
-        bootstrap: None,
-        seed: None,
+        ..EffectEstimate::blank(kind, est, params.level)
     };
     let z = stats::norm_ppf(1.0 - alpha / 2.0);
     match (kind, one_to_one) {
@@ -656,29 +672,12 @@ pub fn unmatched(
     let est = m1 - m0;
     let alpha = 1.0 - level;
     let mut out = EffectEstimate {
-        kind,
-        measure: match kind {
-            OutcomeKind::Binary => "risk difference".into(),
-            OutcomeKind::Continuous => "mean difference".into(),
-        },
-        estimate: est,
-        ci_low: f64::NAN,
-        ci_high: f64::NAN,
-        level,
-        p_value: f64::NAN,
-        method: String::new(),
-        test: String::new(),
-        tests: Vec::new(),
-        n_sets: 0,
         n_treated: yt.len(),
         n_comparison_units: yc.len(),
         mean_treated: m1,
         mean_comparison: m0,
         outcome_sd: pooled_sd(&yt, &yc),
-        risk_ratio: None,
-        pair_counts: None,
-        bootstrap: None,
-        seed: None,
+        ..EffectEstimate::blank(kind, est, level)
     };
     match kind {
         OutcomeKind::Continuous => {
