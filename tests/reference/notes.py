@@ -77,7 +77,7 @@ EDGE_NOTES = [
     "   \n\t  ",
     "a b c d e",
     "lives_alone=TRUE; walking_aid=NA; __init__ 42x 7.5mg",
-    "ÉLAN vital; Zoë’s naïve café — résumé; straße ΔΣ ΣΟΦΟΣ",
+    "ÉLAN vital; coöperative’s naïve café — résumé; straße ΔΣ ΣΟΦΟΣ",
     "😀 pt happy 😀 tele-health follow-up ½ dose ×2 №5",
     "病歴: 転倒あり 高齢 患者",
     "Don't, won't, can't — isn't it? O2 sats 98%. e.g. i.e. etc.",
