@@ -39,7 +39,9 @@ pub fn compute() -> Result<String> {
         }
     }
     if failed.is_empty() {
-        Ok(format!("{} scripts wrote {}", scripts.len(), out.display()))
+        let n = scripts.len();
+        let noun = if n == 1 { "script" } else { "scripts" };
+        Ok(format!("{n} {noun} wrote {}", out.display()))
     } else {
         Err(Failure::new(format!(
             "{} of {} reference scripts failed: {}",
